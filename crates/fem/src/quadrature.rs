@@ -1,0 +1,1 @@
+//! Quadrature (being written).

@@ -1,0 +1,1 @@
+//! Mesh quality (being written).

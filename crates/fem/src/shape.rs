@@ -1,0 +1,1 @@
+//! Shape functions (being written).

@@ -1,0 +1,1 @@
+//! dilata-io (being written).

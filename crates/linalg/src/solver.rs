@@ -1,0 +1,46 @@
+//! The linear-solver trait shared by every back-end.
+//!
+//! Life cycle: [`LinearSolver::analyze`] once per sparsity pattern (ordering, symbolic
+//! factorisation), then [`LinearSolver::factor`] for every new set of values on that pattern
+//! (every Newton iteration, every time step), then any number of [`LinearSolver::solve_in_place`].
+
+use thiserror::Error;
+
+use crate::csr::{CsrMatrix, CsrPattern};
+
+/// Errors of the linear solvers. A singular or non-convergent system is recoverable numerical
+/// trouble for the caller (a time stepper may cut its step); misuse is a bug and panics.
+#[derive(Debug, Error)]
+pub enum LinalgError {
+    #[error("matrix is singular or not positive definite (pivot {pivot:?})")]
+    Singular { pivot: Option<usize> },
+    #[error("iterative solver did not converge in {iterations} iterations (relative residual {residual:e})")]
+    NotConverged { iterations: usize, residual: f64 },
+    #[error("solver back-end failure: {0}")]
+    Backend(String),
+    #[error("{0}")]
+    Usage(String),
+}
+
+/// What a solve did.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct SolveInfo {
+    /// Iterations (0 for direct solvers).
+    pub iterations: usize,
+    /// Final relative residual `|b - Ax| / |b|` where the solver measured it.
+    pub residual: Option<f64>,
+}
+
+/// A sparse linear solver. Matrices are passed with both triangles stored, even to symmetric
+/// solvers, which read the triangle they need.
+pub trait LinearSolver: Send {
+    /// Symbolic analysis for a pattern; must be called before `factor`, and again only when the
+    /// pattern changes.
+    fn analyze(&mut self, pattern: &CsrPattern) -> Result<(), LinalgError>;
+    /// Numeric factorisation (or preconditioner set-up) for new values on the analysed pattern.
+    fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError>;
+    /// Solve `A x = b`; on entry `rhs` holds `b`, on exit `x`.
+    fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError>;
+    /// A short human-readable name ("faer-cholesky/metis").
+    fn name(&self) -> String;
+}

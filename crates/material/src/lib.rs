@@ -1,0 +1,1 @@
+//! dilata-material (being written).

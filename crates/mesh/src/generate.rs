@@ -1,0 +1,1 @@
+//! Mesh generators (being written).

@@ -1,0 +1,1 @@
+//! MSH reader (being written).

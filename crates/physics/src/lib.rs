@@ -1,0 +1,1 @@
+//! dilata-physics (being written).

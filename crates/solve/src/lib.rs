@@ -1,0 +1,1 @@
+//! dilata-solve (being written).
