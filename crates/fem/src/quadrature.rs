@@ -43,6 +43,19 @@ impl QuadratureRule {
     }
 }
 
+/// Measure of the reference cell of `shape`: 2 (line `[-1, 1]`), 4 (square), 8 (cube),
+/// 1/2 (unit triangle), 1/6 (unit tetrahedron), 1 (point, counting measure).
+pub fn reference_measure(shape: Shape) -> f64 {
+    match shape {
+        Shape::Point => 1.0,
+        Shape::Line => 2.0,
+        Shape::Quadrilateral => 4.0,
+        Shape::Hexahedron => 8.0,
+        Shape::Triangle => 0.5,
+        Shape::Tetrahedron => 1.0 / 6.0,
+    }
+}
+
 /// Recurrence coefficients `(a_k, b_k)` of the monic Jacobi polynomials for the weight
 /// `(1 - x)^alpha (1 + x)^beta` on `[-1, 1]`: `p_{k+1} = (x - a_k) p_k - b_k p_{k-1}`.
 /// Formulas: W. Gautschi, "Orthogonal Polynomials: Computation and Approximation", Oxford 2004,

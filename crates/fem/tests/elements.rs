@@ -360,3 +360,42 @@ fn wrong_buffer_length_panics() {
     let mut g = [[0.0; 3]; 4];
     eval_into(CellKind::Tet10, [0.1; 3], &mut v, &mut g);
 }
+
+/// Conformity: on every facet, the cell's shape functions of the facet nodes restrict to the
+/// facet kind's own shape functions (in the facet's node order) and all others vanish. This is
+/// what makes neighbouring cells sharing a facet continuous, and it ties the node order of the
+/// shape functions to `CellKind::facets`.
+#[test]
+fn facet_traces_are_facet_shape_functions() {
+    for kind in kinds().filter(|k| k.dim() >= 2) {
+        let cell_nodes = kind.reference_nodes();
+        for (f, &(fk, fnodes)) in kind.facets().iter().enumerate() {
+            for eta in sample_points(fk, 20) {
+                let (nf, _) = eval(fk, eta);
+                let mut xi = [0.0; 3];
+                for (j, &node) in fnodes.iter().enumerate() {
+                    for d in 0..3 {
+                        xi[d] += nf[j] * cell_nodes[node][d];
+                    }
+                }
+                let (n, _) = eval(kind, xi);
+                for (i, &ni) in n.iter().enumerate() {
+                    let expected = fnodes
+                        .iter()
+                        .position(|&node| node == i)
+                        .map_or(0.0, |j| nf[j]);
+                    assert!(
+                        (ni - expected).abs() < 1e-13,
+                        "{kind} facet {f} at {eta:?}: N_{i} = {ni}, expected {expected}"
+                    );
+                }
+            }
+        }
+    }
+}
+
+#[test]
+#[should_panic(expected = "no shape functions")]
+fn shape_table_of_point1_panics() {
+    let _ = ShapeTable::new(CellKind::Point1, &[[0.0; 3]]);
+}

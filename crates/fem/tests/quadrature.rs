@@ -10,7 +10,9 @@
 //! * Jacobi weight: `∫_{-1}^{1} (1 - x)^α (1 + x)^k dx = 2^(α + k + 1) α! k! / (α + k + 1)!`
 //!   (Euler's Beta integral after `x = 2t - 1`; common practice).
 
-use dilata_fem::quadrature::{gauss_jacobi, gauss_legendre, rule_for, QuadratureRule};
+use dilata_fem::quadrature::{
+    gauss_jacobi, gauss_legendre, reference_measure, rule_for, QuadratureRule,
+};
 use dilata_mesh::Shape;
 
 const REL_TOL: f64 = 1e-13;
@@ -271,23 +273,34 @@ fn gauss_legendre_small_rules_match_closed_forms() {
 #[test]
 fn gauss_jacobi_exact_for_its_weight() {
     for alpha in 0..=2u32 {
-        for n in 1..=12 {
-            let (x, w) = gauss_jacobi(n, alpha, 0);
-            for k in 0..2 * n {
-                let got: f64 = x
-                    .iter()
-                    .zip(&w)
-                    .map(|(xi, wi)| wi * (1.0 + xi).powi(k as i32))
-                    .sum();
-                let a = alpha as usize;
-                let exact = 2f64.powi((a + k + 1) as i32) * factorial(a) * factorial(k)
-                    / factorial(a + k + 1);
-                assert!(
-                    (got - exact).abs() <= REL_TOL * exact,
-                    "alpha {alpha}, n {n}, (1+x)^{k}: got {got:e}, exact {exact:e}"
-                );
+        for beta in 0..=2u32 {
+            for n in 1..=12 {
+                let (x, w) = gauss_jacobi(n, alpha, beta);
+                assert!(x.windows(2).all(|p| p[0] < p[1]) && x.iter().all(|v| v.abs() < 1.0));
+                let (a, b) = (alpha as usize, beta as usize);
+                for k in 0..2 * n {
+                    let got: f64 = x
+                        .iter()
+                        .zip(&w)
+                        .map(|(xi, wi)| wi * (1.0 + xi).powi(k as i32))
+                        .sum();
+                    // (1-x)^a (1+x)^(b+k): Beta integral from the module docs with k -> b + k.
+                    let exact = 2f64.powi((a + b + k + 1) as i32) * factorial(a) * factorial(b + k)
+                        / factorial(a + b + k + 1);
+                    assert!(
+                        (got - exact).abs() <= REL_TOL * exact,
+                        "alpha {alpha}, beta {beta}, n {n}, (1+x)^{k}: got {got:e}, exact {exact:e}"
+                    );
+                }
             }
         }
+    }
+}
+
+#[test]
+fn reference_measures() {
+    for shape in SHAPES {
+        assert_eq!(reference_measure(shape), measure(shape), "{shape:?}");
     }
 }
 

@@ -267,3 +267,61 @@ fn empty_mesh_has_neutral_report() {
     assert_eq!(report.min_jacobian_ratio, 1.0);
     assert!(report.bad_cells.is_empty());
 }
+
+#[test]
+fn non_finite_coordinates_make_a_cell_bad() {
+    let mut mesh = one_cell(CellKind::Hex8, affine(3));
+    mesh.points[6][1] = f64::NAN;
+    assert_eq!(build_quality_report(&mesh).bad_cells, vec![0]);
+    assert!(check_cells(&mesh).is_err());
+}
+
+/// A line cell in a 2D mesh has no signed determinant; its length density |dx/dxi| is used.
+#[test]
+fn lower_dimensional_cells_use_the_measure_density() {
+    let mesh = Mesh {
+        dim: 2,
+        points: vec![[1.0, 1.0, 0.0], [4.0, 5.0, 0.0], [1.0, 1.0, 0.0]],
+        blocks: vec![CellBlock {
+            kind: CellKind::Line2,
+            connectivity: vec![0, 1, 1, 0, 0, 2],
+        }],
+        ..Default::default()
+    };
+    // Length 5 on the reference interval of length 2: density 2.5, in either direction.
+    for cell in 0..2 {
+        let q = cell_quality(&mesh, cell);
+        assert!(
+            (q.min_det - 2.5).abs() < 1e-14 && (q.max_det - 2.5).abs() < 1e-14,
+            "{q:?}"
+        );
+    }
+    // The zero-length line is degenerate.
+    assert_eq!(build_quality_report(&mesh).bad_cells, vec![2]);
+}
+
+#[test]
+fn report_agrees_with_cell_quality() {
+    let mut mesh = one_cell(CellKind::Hex27, warp(3));
+    let n = mesh.points.len();
+    // Second cell: the same hex shifted, sharing no nodes.
+    let shifted: Vec<[f64; 3]> = mesh
+        .points
+        .iter()
+        .map(|p| [p[0] + 5.0, 2.0 * p[1], p[2]])
+        .collect();
+    mesh.points.extend(shifted);
+    mesh.blocks[0].connectivity.extend(n..2 * n);
+    let report = build_quality_report(&mesh);
+    let ratios: Vec<f64> = (0..2)
+        .map(|c| cell_quality(&mesh, c).jacobian_ratio())
+        .collect();
+    let aspects: Vec<f64> = (0..2)
+        .map(|c| cell_quality(&mesh, c).aspect_ratio)
+        .collect();
+    assert_eq!(report.min_jacobian_ratio, ratios[0].min(ratios[1]));
+    assert_eq!(report.max_jacobian_ratio, ratios[0].max(ratios[1]));
+    assert_eq!(report.min_aspect_ratio, aspects[0].min(aspects[1]));
+    assert_eq!(report.max_aspect_ratio, aspects[0].max(aspects[1]));
+    assert!(report.bad_cells.is_empty());
+}
