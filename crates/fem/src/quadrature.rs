@@ -9,7 +9,8 @@
 //!   appendix B).
 //! * Cheaper fully symmetric rules where they use fewer points and pass the exactness tests in
 //!   `tests/quadrature.rs`: triangle centroid (degree 1), 3-point (degree 2), Dunavant 6-point
-//!   (degree 4), Radon 7-point (degree 5); tetrahedron centroid (degree 1) and 4-point (degree 2).
+//!   (degree 4), Radon 7-point (degree 5), Dunavant 12-point (degree 6); tetrahedron centroid
+//!   (degree 1), 4-point (degree 2) and 14-point (degree 5).
 //!
 //! Gauss–Jacobi nodes are found by the Golub–Welsch eigenvalue method (G. H. Golub and
 //! J. H. Welsch, "Calculation of Gauss quadrature rules", Math. Comp. 23 (1969) 221–230), polished
@@ -179,6 +180,11 @@ const SOURCE_DUNAVANT6: &str = "Dunavant 6-point rule, degree 4 (D. A. Dunavant,
      efficient symmetrical Gaussian quadrature rules for the triangle, IJNME 21 (1985) 1129-1148)";
 const SOURCE_RADON7: &str = "Radon 7-point rule, degree 5 (J. Radon, Zur mechanischen Kubatur, \
      Monatsh. Math. 52 (1948) 286-300; Stroud 1971, T2:5-1)";
+const SOURCE_DUNAVANT12: &str = "Dunavant 12-point rule, degree 6 (D. A. Dunavant, High degree \
+     efficient symmetrical Gaussian quadrature rules for the triangle, IJNME 21 (1985) 1129-1148)";
+const SOURCE_TET14: &str = "14-point rule, degree 5 (N. Walkington, Quadrature on simplices of \
+     arbitrary dimension, Carnegie Mellon tech. report, 2000; values from memory, proved by the \
+     exactness tests)";
 const SOURCE_TET4: &str = "4-point rule, degree 2 (Keast, Moderate-degree tetrahedral quadrature \
      formulas, CMAME 55 (1986) 339-348; Stroud 1971, T3:2-1)";
 
@@ -213,11 +219,13 @@ pub fn rule_for(shape: Shape, degree: usize) -> QuadratureRule {
             2 => triangle_three_point(),
             4 => triangle_dunavant6(),
             5 => triangle_radon7(),
+            6 => triangle_dunavant12(),
             _ => collapsed_triangle(points_for_degree(degree)),
         },
         Shape::Tetrahedron => match degree {
             0 | 1 => centroid::<3>(),
             2 => tetrahedron_four_point(),
+            4 | 5 => tetrahedron_fourteen_point(),
             _ => collapsed_tetrahedron(points_for_degree(degree)),
         },
     }
@@ -395,12 +403,87 @@ fn triangle_radon7() -> QuadratureRule {
     }
 }
 
+fn triangle_dunavant12() -> QuadratureRule {
+    // Dunavant (1985), degree-6 rule: two orbits (a, a, 1 - 2a) and one orbit of the six
+    // permutations of (a, b, 1 - a - b); weights given for unit area.
+    const ORBITS3: [(f64, f64); 2] = [
+        (0.249286745170910, 0.116786275726379),
+        (0.063089014491502, 0.050844906370207),
+    ];
+    const ORBIT6: (f64, f64, f64) = (0.053145049844817, 0.310352451033784, 0.082851075618374);
+    let mut points = Vec::with_capacity(12);
+    let mut weights = Vec::with_capacity(12);
+    for (a, w) in ORBITS3 {
+        triangle_orbit3(a, &mut points);
+        weights.extend_from_slice(&[0.5 * w; 3]);
+    }
+    let (a, b, w) = ORBIT6;
+    let c = 1.0 - a - b;
+    points.extend_from_slice(&[
+        [a, b, 0.0],
+        [b, a, 0.0],
+        [a, c, 0.0],
+        [c, a, 0.0],
+        [b, c, 0.0],
+        [c, b, 0.0],
+    ]);
+    weights.extend_from_slice(&[0.5 * w; 6]);
+    QuadratureRule {
+        points,
+        weights,
+        degree: 6,
+        source: SOURCE_DUNAVANT12,
+    }
+}
+
+/// The points of the barycentric orbit `(a, a, a, 1 - 3a)` on the unit tetrahedron.
+fn tetrahedron_orbit4(a: f64, points: &mut Vec<[f64; 3]>) {
+    let b = 1.0 - 3.0 * a;
+    points.extend_from_slice(&[[a, a, a], [b, a, a], [a, b, a], [a, a, b]]);
+}
+
+fn tetrahedron_fourteen_point() -> QuadratureRule {
+    // Two orbits (a, a, a, 1 - 3a) and one orbit (a, a, 1/2 - a, 1/2 - a); weights for
+    // volume 1/6.
+    const ORBITS4: [(f64, f64); 2] = [
+        (0.0927352503108912, 0.01224884051939366),
+        (0.3108859192633006, 0.01878132095300264),
+    ];
+    const ORBIT6: (f64, f64) = (0.4544962958743504, 0.007091003462846911);
+    let mut points = Vec::with_capacity(14);
+    let mut weights = Vec::with_capacity(14);
+    for (a, w) in ORBITS4 {
+        tetrahedron_orbit4(a, &mut points);
+        weights.extend_from_slice(&[w; 4]);
+    }
+    let (a, w) = ORBIT6;
+    let b = 0.5 - a;
+    // Barycentric (l0, l1, l2, l3) with two entries a and two b; Cartesian point = (l1, l2, l3).
+    for (l1, l2, l3) in [
+        (a, b, b),
+        (b, a, b),
+        (b, b, a),
+        (b, a, a),
+        (a, b, a),
+        (a, a, b),
+    ] {
+        points.push([l1, l2, l3]);
+    }
+    weights.extend_from_slice(&[w; 6]);
+    QuadratureRule {
+        points,
+        weights,
+        degree: 5,
+        source: SOURCE_TET14,
+    }
+}
+
 fn tetrahedron_four_point() -> QuadratureRule {
     // Barycentric orbit (a, a, a, 1 - 3a), a = (5 - sqrt 5)/20, equal weights.
-    let a = (5.0 - 5f64.sqrt()) / 20.0;
-    let b = 1.0 - 3.0 * a;
+    let mut points = Vec::with_capacity(4);
+    tetrahedron_orbit4((5.0 - 5f64.sqrt()) / 20.0, &mut points);
     QuadratureRule {
-        points: vec![[a, a, a], [b, a, a], [a, b, a], [a, a, b]],
+        points,
         weights: vec![1.0 / 24.0; 4],
         degree: 2,
         source: SOURCE_TET4,
