@@ -1,1 +1,0 @@
-//! Mesh generators (being written).
