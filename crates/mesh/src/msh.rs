@@ -1,1 +1,0 @@
-//! MSH reader (being written).
