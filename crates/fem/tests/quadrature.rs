@@ -204,14 +204,14 @@ fn weights_sum_to_reference_measure_and_points_are_strictly_inside() {
 /// Symmetric rules are chosen only where they are cheaper than the collapsed product rule.
 #[test]
 fn simplex_rules_use_few_points() {
-    let counts: Vec<usize> = (0..=5)
+    let counts: Vec<usize> = (0..=7)
         .map(|d| rule_for(Shape::Triangle, d).n_points())
         .collect();
-    assert_eq!(counts, vec![1, 1, 3, 4, 6, 7]);
-    let counts: Vec<usize> = (0..=3)
+    assert_eq!(counts, vec![1, 1, 3, 4, 6, 7, 12, 16]);
+    let counts: Vec<usize> = (0..=6)
         .map(|d| rule_for(Shape::Tetrahedron, d).n_points())
         .collect();
-    assert_eq!(counts, vec![1, 1, 4, 8]);
+    assert_eq!(counts, vec![1, 1, 4, 8, 14, 14, 64]);
     // Tensor rules: ceil((degree + 1) / 2) points per direction.
     assert_eq!(rule_for(Shape::Hexahedron, 3).n_points(), 8);
     assert_eq!(rule_for(Shape::Quadrilateral, 4).n_points(), 9);
