@@ -5,10 +5,20 @@
 //! * square and cube `[-1, 1]^d`: products of the line integrals (Fubini);
 //! * unit triangle: `∫ x^a y^b = a! b! / (a + b + 2)!`;
 //! * unit tetrahedron: `∫ x^a y^b z^c = a! b! c! / (a + b + c + 3)!`
-//!   (Dirichlet's integral; e.g. Stroud 1971, "Approximate Calculation of Multiple Integrals",
-//!   section 7.1, and Zienkiewicz & Taylor's textbook formula for area/volume coordinates);
-//! * Jacobi weight: `∫_{-1}^{1} (1 - x)^α (1 + x)^k dx = 2^(α + k + 1) α! k! / (α + k + 1)!`
-//!   (Euler's Beta integral after `x = 2t - 1`; common practice).
+//!   (both Dirichlet's integral over the unit simplex, common practice, no source; it is the
+//!   area/volume-coordinate integration formula of finite-element textbooks, e.g. Zienkiewicz,
+//!   Taylor & Zhu 2005, from memory);
+//! * Jacobi weight: `∫_{-1}^{1} (1 - x)^α (1 + x)^(β + k) dx
+//!   = 2^(α + β + k + 1) α! (β + k)! / (α + β + k + 1)!`
+//!   (Euler's Beta integral after `x = 2t - 1`; common practice, no source).
+//!
+//! Tabulated rules checked here (sources in `quadrature.rs` beside each rule): Gauss–Legendre
+//! small cases against Abramowitz & Stegun 1964, Table 25.4; Dunavant 1985 (IJNME 21,
+//! 1129–1148) 6- and 12-point triangle rules; Radon 1948 7-point triangle rule; Keast 1986 /
+//! Stroud 1971 4-point tetrahedron rule; 14-point degree-5 tetrahedron rule (Walkington 2000,
+//! values from memory). The generated rules (tensor Gauss–Legendre, collapsed
+//! Gauss–Legendre × Gauss–Jacobi products after Stroud 1971 / Karniadakis & Sherwin 2005) are
+//! checked the same way up to degree 17.
 
 use dilata_fem::quadrature::{
     gauss_jacobi, gauss_legendre, reference_measure, rule_for, QuadratureRule,
