@@ -1,0 +1,116 @@
+//! Shared pieces of the sparse direct back-ends: parameters, statistics and checks.
+
+use crate::csr::{CsrMatrix, CsrPattern};
+use crate::ordering::Ordering;
+use crate::parallel::Parallelism;
+use crate::solver::LinalgError;
+
+/// Parameters of a sparse direct solver.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct DirectParams {
+    /// Fill-reducing ordering computed in `analyze`.
+    pub ordering: Ordering,
+    /// Threads for the numeric factorisation and the solves.
+    pub parallelism: Parallelism,
+}
+
+impl DirectParams {
+    /// Parameters with the given ordering, sequential.
+    pub fn with_ordering(ordering: Ordering) -> Self {
+        DirectParams {
+            ordering,
+            parallelism: Parallelism::Sequential,
+        }
+    }
+}
+
+/// What a direct solver has done so far; lets callers (and tests) see that the symbolic
+/// analysis is reused across numeric factorisations.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct DirectStats {
+    /// Number of symbolic analyses (ordering + symbolic factorisation) performed.
+    pub n_analyses: usize,
+    /// Number of numeric factorisations performed.
+    pub n_factorizations: usize,
+    /// Stored entries of the factor(s) predicted by the symbolic analysis (L for Cholesky and
+    /// LDLᵀ; 0 where the back-end does not report it).
+    pub factor_nnz: usize,
+}
+
+/// A copy of the analysed pattern, to reject a `factor` call on a different pattern.
+#[derive(Debug)]
+pub(crate) struct AnalysedPattern {
+    pattern: CsrPattern,
+}
+
+impl AnalysedPattern {
+    /// Record `pattern`, which must be square.
+    pub(crate) fn new(pattern: &CsrPattern) -> Result<Self, LinalgError> {
+        if pattern.n_rows != pattern.n_cols {
+            return Err(LinalgError::Usage(format!(
+                "direct solvers need a square matrix, got {}x{}",
+                pattern.n_rows, pattern.n_cols
+            )));
+        }
+        if pattern.row_ptr.len() != pattern.n_rows + 1
+            || pattern.row_ptr.last().copied() != Some(pattern.col_idx.len())
+        {
+            return Err(LinalgError::Usage("inconsistent CSR pattern".into()));
+        }
+        Ok(AnalysedPattern {
+            pattern: pattern.clone(),
+        })
+    }
+
+    /// Check that `matrix` lives on the analysed pattern and has one value per entry.
+    pub(crate) fn check(&self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
+        let p = matrix.pattern.as_ref();
+        if *p != self.pattern {
+            return Err(LinalgError::Usage(
+                "factor called with a matrix whose pattern differs from the analysed one; \
+                 call analyze again"
+                    .into(),
+            ));
+        }
+        if matrix.values.len() != p.nnz() {
+            return Err(LinalgError::Usage(format!(
+                "matrix has {} values for {} pattern entries",
+                matrix.values.len(),
+                p.nnz()
+            )));
+        }
+        Ok(())
+    }
+
+    /// The analysed pattern.
+    pub(crate) fn pattern(&self) -> &CsrPattern {
+        &self.pattern
+    }
+
+    /// Its dimension.
+    pub(crate) fn n(&self) -> usize {
+        self.pattern.n_rows
+    }
+}
+
+/// Usage error for a right-hand side of the wrong length.
+pub(crate) fn check_rhs_len(n: usize, rhs: &[f64]) -> Result<(), LinalgError> {
+    if rhs.len() == n {
+        Ok(())
+    } else {
+        Err(LinalgError::Usage(format!(
+            "right-hand side has length {}, expected {n}",
+            rhs.len()
+        )))
+    }
+}
+
+/// A pivot breakdown surfaces as non-finite numbers in a solve: faer's supernodal LU and the
+/// intranodal LBLᵀ do not report a zero pivot themselves (checked in faer 0.24.4 source).
+pub(crate) fn check_finite(x: &[f64]) -> Result<(), LinalgError> {
+    if x.iter().all(|v| v.is_finite()) {
+        Ok(())
+    } else {
+        Err(LinalgError::Singular { pivot: None })
+    }
+}
