@@ -395,3 +395,6 @@ fn per_axis(n: usize, kind: CellKind) -> usize {
 
 #[path = "generate/shapes.rs"]
 mod shapes;
+
+#[path = "generate/quadratic.rs"]
+mod quadratic;
