@@ -292,6 +292,8 @@ fn hex8_v22_repeated_elements_are_one_cell_in_several_groups() {
 // ------------------------------------------------------------------ small inline files
 
 /// A valid MSH 2.2 ASCII file with one triangle (line numbers matter to the tests below).
+/// Layout: MSH specification, "MSH file format version 2" (from memory): node lines
+/// `tag x y z`, element lines `tag type n-tags physical entity nodes...`.
 fn tiny22() -> String {
     [
         "$MeshFormat",     // line 1
@@ -431,7 +433,8 @@ fn unknown_element_code_names_code_and_element() {
 #[test]
 fn unknown_element_code_in_binary_file() {
     let mut bytes = sample_bytes("hex27_v41_binary.msh");
-    // First element block header: entity dim (int), entity tag (int), type (int), count (size_t).
+    // MSH 4.1 binary $Elements (specification, from memory): a header of four size_t, then per
+    // block entity dim (int), entity tag (int), type (int), count (size_t).
     let data = bytes.windows(10).position(|w| w == b"$Elements\n").unwrap() + 10 + 32;
     let code_at = data + 8;
     assert_eq!(bytes[code_at..code_at + 4], 12i32.to_le_bytes());
@@ -486,6 +489,8 @@ fn unsupported_version() {
 
 #[test]
 fn binary_header_checks_data_size_and_endianness() {
+    // MSH specification, $MeshFormat (from memory): binary files give data size 8 and write
+    // the int 1 right after the header line so that a reader can detect the byte order.
     let (_, section, msg) = parse_error("$MeshFormat\n4.1 1 4\n");
     assert_eq!(section, "$MeshFormat");
     assert!(msg.contains("data size 8"), "{msg}");
@@ -505,6 +510,8 @@ fn binary_header_checks_data_size_and_endianness() {
 
 #[test]
 fn node_count_in_v41_header_must_match_blocks() {
+    // MSH 4.1 $Nodes header (specification, from memory): numEntityBlocks numNodes minTag
+    // maxTag; the sample has 2 blocks and 15 nodes.
     let text = String::from_utf8(sample_bytes("tri3_v41_ascii.msh")).unwrap();
     let (_, section, msg) = parse_error(&text.replace("$Nodes\n2 15 ", "$Nodes\n2 16 "));
     assert_eq!(section, "$Nodes");
@@ -512,6 +519,67 @@ fn node_count_in_v41_header_must_match_blocks() {
         msg.contains("announces 16 nodes but the blocks hold 15"),
         "{msg}"
     );
+}
+
+#[test]
+fn fewer_elements_than_announced_is_a_count_mismatch() {
+    let (loc, section, msg) = parse_error(&tiny22().replace("$Elements\n2\n", "$Elements\n3\n"));
+    assert_eq!(section, "$Elements");
+    assert!(
+        msg.contains("found '$EndElements'") && msg.contains("section ends before"),
+        "{msg}"
+    );
+    assert_eq!(
+        loc,
+        Location::Line {
+            line: 14,
+            column: 1
+        }
+    );
+}
+
+#[test]
+fn v41_element_of_an_entity_missing_from_entities_is_an_error() {
+    let text = String::from_utf8(sample_bytes("quad9_v41_ascii.msh")).unwrap();
+    // The first element block belongs to surface 1; point it at surface 9, which is not listed.
+    let start = text.find("$Elements\n").unwrap();
+    let block = text[start..].find("\n2 1 10 ").unwrap() + start;
+    let bad = format!(
+        "{}\n2 9 10 {}",
+        &text[..block],
+        &text[block + "\n2 1 10 ".len()..]
+    );
+    let (_, section, msg) = parse_error(&bad);
+    assert_eq!(section, "$Elements");
+    assert!(
+        msg.contains("entity (dimension 2, tag 9), which is not listed in $Entities"),
+        "{msg}"
+    );
+}
+
+#[test]
+fn one_d_mesh_point_groups_are_boundaries() {
+    // Two line3 on [0, 2]; the end points are point elements in groups 1 and 2 (MSH 2.2
+    // element line: tag type n-tags physical entity nodes; from memory of the specification).
+    let text = "$MeshFormat\n2.2 0 8\n$EndMeshFormat\n\
+                $Nodes\n5\n1 0 0 0\n2 1 0 0\n3 2 0 0\n4 0.5 0 0\n5 1.5 0 0\n$EndNodes\n\
+                $Elements\n4\n1 8 2 3 1 1 2 4\n2 8 2 3 1 2 3 5\n3 15 2 1 1 1\n4 15 2 2 2 3\n$EndElements\n";
+    let m = parse_msh(text.as_bytes(), "bar.msh").unwrap();
+    assert_eq!((m.dim, m.n_cells()), (1, 2));
+    assert_eq!(
+        sizes(&m.boundaries),
+        vec![("group_0_1", 1), ("group_0_2", 1)]
+    );
+    // Point 1 is the first end of cell 0 (local facet 0); point 3 the second end of cell 1.
+    assert_eq!(
+        m.boundary("group_0_1").unwrap()[0],
+        dilata_mesh::Facet { cell: 0, local: 0 }
+    );
+    assert_eq!(
+        m.boundary("group_0_2").unwrap()[0],
+        dilata_mesh::Facet { cell: 1, local: 1 }
+    );
+    assert_high_order_nodes_in_place(&m);
 }
 
 #[test]

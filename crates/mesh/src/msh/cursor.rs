@@ -205,10 +205,18 @@ impl<'a> Cursor<'a> {
         let (start, tok) = self.token(what)?;
         match all_consuming(parser).parse(tok) {
             Ok((_, v)) => Ok((start, v)),
-            Err(_) => Err(self.error_at(
-                start,
-                format!("expected {what} ({kind}), found '{}'", show(tok)),
-            )),
+            Err(_) => {
+                let hint = if tok.starts_with(b"$") {
+                    " (the section ends before everything its counts announce was read)"
+                } else {
+                    ""
+                };
+                let found = show(tok);
+                Err(self.error_at(
+                    start,
+                    format!("expected {what} ({kind}), found '{found}'{hint}"),
+                ))
+            }
         }
     }
 

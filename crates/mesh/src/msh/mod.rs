@@ -23,13 +23,14 @@
 //!
 //! # How the file becomes a mesh
 //!
-//! * The mesh dimension is the highest element dimension in the file; elements of that
+//! * The mesh dimension is the highest element dimension in the file (1, 2 or 3); elements of that
 //!   dimension are the cells, one block per kind in order of first appearance, cells in file
 //!   order. Cells without a physical group still belong to the body.
 //! * Each physical group of cells becomes a region; each physical group of elements one
 //!   dimension lower becomes a boundary, each element matched (by its corner nodes) to a facet
-//!   of a cell; a facet shared by two cells is attached to the cell with the lower id. Physical
-//!   groups of still lower dimension become node sets (all nodes of their elements).
+//!   of a cell; a facet shared by two cells is attached to the cell with the lower id (so in a
+//!   1D mesh, point groups are boundaries). Physical groups of still lower dimension become node
+//!   sets (all nodes of their elements), e.g. point and line groups of a 3D mesh.
 //!   Lower-dimension elements without a physical group are dropped.
 //! * Names come from `$PhysicalNames`; a group without a name is called `group_<dim>_<tag>`
 //!   (see [`default_group_name`]). Groups of one dimension with the same name are merged.
@@ -61,7 +62,7 @@ use cursor::{show, Cursor, Encoding};
 
 /// MSH format versions this reader understands.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum MshVersion {
+enum MshVersion {
     /// Format 2.2.
     V2_2,
     /// Format 4.1.
