@@ -72,6 +72,16 @@ pub enum IoError {
         #[source]
         source: dilata_mesh::MeshError,
     },
+    /// More points or cells than the VTU encoder can count (vtkio keeps the counts as `u32`).
+    #[error("{}: {count} {what} exceed the VTU writer's limit of 4294967295", path.display())]
+    TooLarge {
+        /// The file being written.
+        path: PathBuf,
+        /// "points" or "cells".
+        what: &'static str,
+        /// How many there are.
+        count: usize,
+    },
     /// The VTK XML encoder (vtkio) refused the data.
     #[error("{}: VTK XML encoding failed: {source}", path.display())]
     Encode {

@@ -99,6 +99,16 @@ pub fn write_vtu(
     point_data: &[FieldData],
     cell_data: &[FieldData],
 ) -> Result<(), IoError> {
+    // vtkio stores the piece's point and cell counts as u32 (and panics beyond).
+    for (what, count) in [("points", mesh.n_points()), ("cells", mesh.n_cells())] {
+        if u32::try_from(count).is_err() {
+            return Err(IoError::TooLarge {
+                path: path.to_path_buf(),
+                what,
+                count,
+            });
+        }
+    }
     mesh.validate_structure()
         .map_err(|source| IoError::InvalidMesh {
             path: path.to_path_buf(),
@@ -154,8 +164,41 @@ pub fn write_vtu(
         .map_err(encode_err)?;
     let mut bytes = Vec::new();
     xml.write(&mut bytes).map_err(encode_err)?;
+    let mut bytes = complete_piece_counts(bytes, mesh.n_points(), mesh.n_cells());
     bytes.push(b'\n');
     write_atomic(path, &bytes)
+}
+
+/// vtkio leaves out `NumberOfPoints` / `NumberOfCells` on the `Piece` element when they are zero
+/// (serde `skip_serializing_if = "is_zero"` in vtkio 0.7.0-rc2), and VTK's reader then reports
+/// "Piece 0 is missing its NumberOfPoints attribute" (seen with the `vtk` Python package 9.7.2).
+/// Insert the missing attribute(s) into the first `Piece` tag, which comes before any data array,
+/// so no array name can be mistaken for it.
+fn complete_piece_counts(xml: Vec<u8>, n_points: usize, n_cells: usize) -> Vec<u8> {
+    const TAG: &[u8] = b"<Piece";
+    let Some(at) = xml.windows(TAG.len()).position(|w| w == TAG) else {
+        return xml;
+    };
+    let Some(end) = xml[at..].iter().position(|&b| b == b'>').map(|e| at + e) else {
+        return xml;
+    };
+    let tag = String::from_utf8_lossy(&xml[at..end]);
+    let mut extra = String::new();
+    if !tag.contains("NumberOfPoints=") {
+        extra.push_str(&format!(" NumberOfPoints=\"{n_points}\""));
+    }
+    if !tag.contains("NumberOfCells=") {
+        extra.push_str(&format!(" NumberOfCells=\"{n_cells}\""));
+    }
+    if extra.is_empty() {
+        return xml;
+    }
+    let insert_at = at + TAG.len();
+    let mut out = Vec::with_capacity(xml.len() + extra.len());
+    out.extend_from_slice(&xml[..insert_at]);
+    out.extend_from_slice(extra.as_bytes());
+    out.extend_from_slice(&xml[insert_at..]);
+    out
 }
 
 /// Check names and lengths and turn the fields into vtkio attributes (vectors padded to 3).
@@ -274,6 +317,23 @@ mod tests {
         assert_eq!(vector_components(6, 3, 3), None);
         assert_eq!(vector_components(7, 3, 2), None);
         assert_eq!(vector_components(3, 3, 1), Some(1));
+    }
+
+    #[test]
+    fn zero_counts_are_added_to_the_piece_tag() {
+        let fixed =
+            complete_piece_counts(b"<A><Piece><B Name=\"Piece\"/></Piece></A>".to_vec(), 0, 0);
+        assert_eq!(
+            String::from_utf8(fixed).unwrap(),
+            "<A><Piece NumberOfPoints=\"0\" NumberOfCells=\"0\"><B Name=\"Piece\"/></Piece></A>"
+        );
+        let fixed = complete_piece_counts(b"<Piece NumberOfPoints=\"4\"></Piece>".to_vec(), 4, 0);
+        assert_eq!(
+            fixed,
+            b"<Piece NumberOfCells=\"0\" NumberOfPoints=\"4\"></Piece>"
+        );
+        let whole = b"<Piece NumberOfPoints=\"4\" NumberOfCells=\"1\"></Piece>".to_vec();
+        assert_eq!(complete_piece_counts(whole.clone(), 4, 1), whole);
     }
 
     #[test]

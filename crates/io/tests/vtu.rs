@@ -570,4 +570,64 @@ fn pvd_keeps_times_exactly_and_is_rewritten_after_each_add() {
         );
     }
     assert_eq!(dir_listing(dir.path()), ["run.pvd"]);
+
+    // A collection over two of the files kept by the other tests, for a check with VTK's
+    // collection reader.
+    if let Some(keep) = std::env::var_os("DILATA_IO_KEEP") {
+        let keep = PathBuf::from(keep);
+        std::fs::create_dir_all(&keep).unwrap();
+        let mut series = PvdWriter::new(&keep.join("series.pvd"));
+        series.add(0.1, "quad9.vtu");
+        series.add(1.0 / 3.0, "nonfinite.vtu");
+        series.write().unwrap();
+    }
+}
+
+/// Edge cases a solver can produce: an empty mesh, and non-finite values after a failed step
+/// (written as they are, so that the failure can be looked at).
+#[test]
+fn empty_mesh_and_non_finite_values_are_written() {
+    let dir = tempfile::tempdir().unwrap();
+    let empty = dir.path().join("empty.vtu");
+    write_vtu(
+        &empty,
+        &Mesh {
+            dim: 3,
+            ..Mesh::default()
+        },
+        &[FieldData::new("c", FieldKind::Scalar, vec![])],
+        &[],
+    )
+    .unwrap();
+    let piece = read_piece(&empty);
+    assert_eq!((piece.num_points(), piece.cells.types.len()), (0, 0));
+    // vtkio omits zero counts; the writer puts them back (VTK's reader requires them).
+    let xml = std::fs::read_to_string(&empty).unwrap();
+    assert_eq!(xml_attr(&xml, "<Piece", "NumberOfPoints"), "0");
+    assert_eq!(xml_attr(&xml, "<Piece", "NumberOfCells"), "0");
+    keep_copy(
+        &empty,
+        r#"{"points": 0, "cells": 0, "cell_type_counts": {}}"#,
+    );
+
+    let path = dir.path().join("nonfinite.vtu");
+    let mesh = quad9_mesh();
+    let mut c = vec![1.0; 15];
+    c[3] = f64::NAN;
+    c[4] = f64::INFINITY;
+    c[5] = f64::NEG_INFINITY;
+    write_vtu(
+        &path,
+        &mesh,
+        &[FieldData::new("c", FieldKind::Scalar, c)],
+        &[],
+    )
+    .unwrap();
+    let read = f64s(array(&read_piece(&path).data.point, "c").1);
+    assert!(read[3].is_nan() && read[4] == f64::INFINITY && read[5] == f64::NEG_INFINITY);
+    assert_eq!(read[6], 1.0);
+    keep_copy(
+        &path,
+        r#"{"points": 15, "cells": 2, "arrays": [{"association": "point", "name": "c", "components": 1, "values": [[6, 1.0]]}]}"#,
+    );
 }
