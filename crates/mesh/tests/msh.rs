@@ -583,6 +583,41 @@ fn one_d_mesh_point_groups_are_boundaries() {
 }
 
 #[test]
+fn ungrouped_cells_stay_ungrouped_facets_go_and_internal_facets_attach_to_the_first_cell() {
+    // Two triangles of the unit square; physical tag 0 means "no group" (MSH 2.2
+    // specification, element tags; from memory). Element 3 lies on the shared diagonal.
+    let text = "$MeshFormat\n2.2 0 8\n$EndMeshFormat\n\
+                $Nodes\n4\n1 0 0 0\n2 1 0 0\n3 1 1 0\n4 0 1 0\n$EndNodes\n\
+                $Elements\n4\n1 2 2 0 1 1 2 3\n2 2 2 7 1 1 3 4\n3 1 2 8 1 3 1\n4 1 2 0 1 1 2\n$EndElements\n";
+    let m = parse_msh(text.as_bytes(), "square.msh").unwrap();
+    assert_eq!(m.n_cells(), 2);
+    assert_eq!(m.region("group_2_7").unwrap(), &[1]);
+    assert_eq!(sizes(&m.boundaries), vec![("group_1_8", 1)]);
+    // Cell 0 has nodes (1, 2, 3); its local facet 2 runs from node 3 to node 1.
+    assert_eq!(
+        m.boundary("group_1_8").unwrap(),
+        &[dilata_mesh::Facet { cell: 0, local: 2 }]
+    );
+}
+
+#[test]
+fn file_without_groups_gives_cells_only() {
+    let text = tiny22()
+        .replace("1 2 2 7 1", "1 2 2 0 1")
+        .replace("2 1 2 8 1", "2 1 2 0 1");
+    let m = parse_msh(text.as_bytes(), "plain.msh").unwrap();
+    assert_eq!(m.n_cells(), 1);
+    assert!(m.regions.is_empty() && m.boundaries.is_empty() && m.node_sets.is_empty());
+}
+
+#[test]
+fn windows_line_endings_are_accepted() {
+    let m = parse_msh(tiny22().replace('\n', "\r\n").as_bytes(), "crlf.msh").unwrap();
+    assert_eq!((m.n_points(), m.n_cells()), (3, 1));
+    assert_eq!(sizes(&m.boundaries), vec![("group_1_8", 1)]);
+}
+
+#[test]
 fn facet_element_that_is_no_cell_face_is_an_error() {
     let (_, section, msg) = parse_error(&tiny22().replace("2 1 2 8 1 1 2", "2 1 2 8 1 1 1"));
     assert_eq!(section, "$Elements");

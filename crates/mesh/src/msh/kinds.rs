@@ -201,22 +201,46 @@ mod tests {
         }
     }
 
-    #[test]
-    fn hex27_places_face_centres_on_their_faces() {
-        // Reference geometry: every converted face-centre node must be the mean of the corners
-        // of the hex8 facet with the same index (the convention stated in cell.rs).
-        let p = msh_to_dilata(CellKind::Hex27);
-        for (i, _) in CellKind::Hex8.facets().iter().enumerate() {
-            let msh_index = p[20 + i];
-            let face = MSH_HEX_FACES[msh_index - 20];
-            let (_, vtk_face) = CellKind::Hex8.facets()[i];
-            let mut a: Vec<usize> = face.to_vec();
-            let mut b: Vec<usize> = vtk_face.to_vec();
-            a.sort_unstable();
-            b.sort_unstable();
-            assert_eq!(a, b);
+    /// Reference nodes of `kind` in MSH order, placed from the MSH tables of this module.
+    fn msh_reference_nodes(kind: CellKind) -> Vec<[f64; 3]> {
+        let corners = kind.linear().reference_nodes();
+        let mean = |ids: &[usize]| {
+            let mut m = [0.0; 3];
+            for &i in ids {
+                for d in 0..3 {
+                    m[d] += corners[i][d] / ids.len() as f64;
+                }
+            }
+            m
+        };
+        let mut x = corners.clone();
+        if kind.order() == 2 {
+            for &(a, b) in msh_edges(kind.shape()) {
+                x.push(mean(&[a, b]));
+            }
         }
-        assert_eq!(p[26], 26);
+        match kind {
+            CellKind::Quad9 => x.push(mean(&[0, 1, 2, 3])),
+            CellKind::Hex27 => {
+                for f in MSH_HEX_FACES {
+                    x.push(mean(&f));
+                }
+                x.push(mean(&[0, 1, 2, 3, 4, 5, 6, 7]));
+            }
+            _ => {}
+        }
+        x
+    }
+
+    #[test]
+    fn converted_reference_cells_match_the_dilata_reference_nodes() {
+        // Geometry, not tables: place every node of a reference cell where the MSH ordering
+        // says it is, convert, and compare with the Dilata (VTK) reference nodes of cell.rs.
+        for k in CellKind::ALL {
+            let msh = msh_reference_nodes(k);
+            let converted: Vec<[f64; 3]> = msh_to_dilata(k).iter().map(|&p| msh[p]).collect();
+            assert_eq!(converted, k.reference_nodes(), "{k}");
+        }
     }
 
     #[test]
