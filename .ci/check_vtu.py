@@ -6,6 +6,7 @@ Usage:
                  [--cell-type-counts '{"tet10": 12}']
                  [--array 'ASSOC:NAME:COMPONENTS[:INDEX:VALUE]' ...]
                  [--file-attr KEY=VALUE ...]
+                 [--cell-points 'CELL:N0,N1,...' ...]
                  [--expect-json FILE]
 
 The file is read by vtkXMLUnstructuredGridReader in a child process (this same script run with
@@ -22,6 +23,7 @@ Checks, one output line each ("OK ..." or "FAIL ..."):
     flat index (tuple * components + component), to 1e-12 relative tolerance
     (|got - want| <= 1e-12 * max(|got|, |want|), so zero must be exactly zero);
   * every point array in the file has N tuples and every cell array M tuples;
+  * optionally, the point ids of given cells, in order (this checks the node ordering);
   * attributes of the root VTKFile element (e.g. header_type=UInt64,
     compressor=vtkZLibDataCompressor), read from the XML text.
 
@@ -35,6 +37,7 @@ All keys are optional; command-line options add to (and for points/cells overrid
       "cells": 1,
       "cell_type_counts": {"quad9": 1},
       "file_attributes": {"type": "UnstructuredGrid", "header_type": "UInt64"},
+      "cell_points": [[0, [0, 2, 12, 10, 1, 7, 11, 5, 6]]],
       "arrays": [
         {"association": "point", "name": "u", "components": 3,
          "values": [[0, 0.5], [4, -1.25]]},
@@ -83,8 +86,8 @@ CELL_NAMES = {
 
 
 def child_main(path):
-    """Read PATH with vtkXMLUnstructuredGridReader; requests (JSON on stdin) name the values to
-    return: {"values": [[assoc, name, flat_index], ...]}."""
+    """Read PATH with vtkXMLUnstructuredGridReader; requests (JSON on stdin) name the values and
+    cells to return: {"values": [[assoc, name, flat_index], ...], "cells": [cell_index, ...]}."""
     requests = json.load(sys.stdin)
     import vtk  # imported only in the child
 
@@ -151,6 +154,15 @@ def child_main(path):
         else:
             values.append(float(a.GetVariantValue(index).ToDouble()))
     summary["values"] = values
+    cell_points = []
+    for c in requests["cells"]:
+        if 0 <= c < grid.GetNumberOfCells():
+            ids = vtk.vtkIdList()
+            grid.GetCellPoints(c, ids)
+            cell_points.append([ids.GetId(k) for k in range(ids.GetNumberOfIds())])
+        else:
+            cell_points.append(None)
+    summary["cell_points"] = cell_points
     json.dump(summary, sys.stdout)
 
 
@@ -188,7 +200,7 @@ def parse_array_spec(spec):
 
 
 def load_expectations(args):
-    exp = {"points": None, "cells": None, "cell_type_counts": None, "file_attributes": {}, "arrays": []}
+    exp = {"points": None, "cells": None, "cell_type_counts": None, "file_attributes": {}, "arrays": [], "cell_points": []}
     if args.expect_json:
         with open(args.expect_json, encoding="utf-8") as f:
             data = json.load(f)
@@ -200,6 +212,7 @@ def load_expectations(args):
                 exp[key] = data[key]
         exp["file_attributes"].update(data.get("file_attributes", {}))
         exp["arrays"].extend(data.get("arrays", []))
+        exp["cell_points"].extend(data.get("cell_points", []))
     if args.points is not None:
         exp["points"] = args.points
     if args.cells is not None:
@@ -213,6 +226,11 @@ def load_expectations(args):
         exp["file_attributes"][key] = value
     for spec in args.array:
         exp["arrays"].append(parse_array_spec(spec))
+    for spec in args.cell_points:
+        cell, sep, ids = spec.partition(":")
+        if not sep:
+            raise ValueError(f"--cell-points '{spec}': expected CELL:N0,N1,...")
+        exp["cell_points"].append([int(cell), [int(i) for i in ids.split(",")]])
     if exp["points"] is None or exp["cells"] is None:
         raise ValueError("the number of points and cells must be given (options or --expect-json)")
     return exp
@@ -249,7 +267,7 @@ def run_checks(path, exp, report):
     try:
         proc = subprocess.run(
             [sys.executable, os.path.abspath(__file__), "--child", path],
-            input=json.dumps({"values": requests}),
+            input=json.dumps({"values": requests, "cells": [int(c) for c, _ in exp["cell_points"]]}),
             capture_output=True,
             text=True,
             timeout=CHILD_TIMEOUT_S,
@@ -300,6 +318,9 @@ def run_checks(path, exp, report):
             ok = got is not None and close_enough(got, float(want))
             report.check(ok, f"{label} value[{index}]: {got!r} (expected {float(want)!r})")
 
+    for (cell, want), got in zip(exp["cell_points"], s["cell_points"]):
+        report.check(got == list(want), f"point ids of cell {cell}: {got} (expected {list(want)})")
+
     for assoc, n in (("point", s["points"]), ("cell", s["cells"])):
         for name, info in sorted(tables[assoc].items()):
             report.check(info["tuples"] == n, f"{assoc} array '{name}' tuples: {info['tuples']} (expected {n})")
@@ -318,6 +339,7 @@ def main(argv):
     p.add_argument("--cell-type-counts", help='JSON object, e.g. \'{"tet10": 12}\'')
     p.add_argument("--array", action="append", default=[], help="ASSOC:NAME:COMPONENTS[:INDEX:VALUE]")
     p.add_argument("--file-attr", action="append", default=[], help="KEY=VALUE on the VTKFile element")
+    p.add_argument("--cell-points", action="append", default=[], help="CELL:N0,N1,... point ids of a cell")
     p.add_argument("--expect-json", help="JSON file of expectations (format in the script header)")
     args = p.parse_args(argv[1:])
     try:

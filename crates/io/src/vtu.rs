@@ -34,6 +34,9 @@ pub enum FieldKind {
     /// `mesh.dim` or 3 values per entity; written padded with zeros to 3 components.
     Vector,
     /// 6 values per entity in VTK's symmetric-tensor order XX, YY, ZZ, XY, YZ, XZ, in 2D too.
+    ///
+    /// Order checked with the `vtk` Python package 9.7.2: vtkTensorPrincipalInvariants on a
+    /// 6-component array gives the eigenvalues of the matrix built in exactly this order.
     SymTensor,
 }
 

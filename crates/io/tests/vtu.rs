@@ -258,6 +258,7 @@ fn quad9_mesh_round_trips_through_vtkio() {
         &path,
         &format!(
             r#"{{"points": 15, "cells": 2, "cell_type_counts": {{"quad9": 2}},
+ "cell_points": [[0, [0, 2, 12, 10, 1, 7, 11, 5, 6]], [1, [2, 4, 14, 12, 3, 9, 13, 7, 8]]],
  "file_attributes": {{"type": "UnstructuredGrid", "header_type": "UInt64", "compressor": "vtkZLibDataCompressor"}},
  "arrays": [
   {{"association": "coords", "name": "Points", "components": 3, "values": [[21, 1.0], [22, 0.5]]}},
@@ -333,6 +334,7 @@ fn tet10_mesh_round_trips_through_vtkio() {
         &path,
         &format!(
             r#"{{"points": 14, "cells": 2, "cell_type_counts": {{"tet10": 2}},
+ "cell_points": [[0, {c0:?}], [1, {c1:?}]],
  "file_attributes": {{"header_type": "UInt64", "compressor": "vtkZLibDataCompressor"}},
  "arrays": [
   {{"association": "point", "name": "mu", "components": 1, "values": [[13, {m:e}]]}},
@@ -341,6 +343,8 @@ fn tet10_mesh_round_trips_through_vtkio() {
   {{"association": "cell", "name": "sigma", "components": 6, "values": [[7, {g:e}]]}},
   {{"association": "cell", "name": "region", "components": 1, "values": [[0, 1], [1, 0]]}}
  ]}}"#,
+            c0 = &mesh.blocks[0].connectivity[..10],
+            c1 = &mesh.blocks[0].connectivity[10..],
             m = mu[13],
             u = u[41],
             s = strain[83],
