@@ -6,7 +6,9 @@
 //! Back-ends:
 //! * [`FaerCholesky`] (SPD), [`FaerLdlt`] (symmetric indefinite) and [`FaerLu`] (general):
 //!   sparse direct solvers from faer with a selectable fill-reducing [`Ordering`].
-//! * Krylov methods with simple preconditioners (added in `krylov`).
+//! * [`Cg`] (SPD), [`BiCgStab`] and [`Gmres`] (general) with a [`Preconditioner`]
+//!   (none, Jacobi, ILU(0)) and [`KrylovParams`].
+//! * [`SolverKind`] and [`build_solver`]: pick one by its command-line name.
 //!
 //! ```
 //! use std::sync::Arc;
@@ -35,15 +37,23 @@
 pub mod cholesky;
 pub mod csr;
 pub mod direct;
+pub mod gmres;
+pub mod kind;
+pub mod krylov;
 pub mod lu;
 pub mod ordering;
 pub mod parallel;
+pub mod precond;
 pub mod solver;
 
 pub use cholesky::{FaerCholesky, FaerLdlt};
 pub use csr::{CsrMatrix, CsrPattern};
 pub use direct::{DirectParams, DirectStats};
+pub use gmres::Gmres;
+pub use kind::{build_solver, build_solver_with, SolverConfig, SolverKind};
+pub use krylov::{BiCgStab, Cg, KrylovParams};
 pub use lu::FaerLu;
 pub use ordering::{build_permutation, Ordering, Permutation};
 pub use parallel::Parallelism;
+pub use precond::Preconditioner;
 pub use solver::{LinalgError, LinearSolver, SolveInfo};
