@@ -163,7 +163,11 @@ impl CellKind {
         match self {
             K::Point1 => &[],
             K::Line2 | K::Line3 => &[(K::Point1, &[0]), (K::Point1, &[1])],
-            K::Tri3 => &[(K::Line2, &[0, 1]), (K::Line2, &[1, 2]), (K::Line2, &[2, 0])],
+            K::Tri3 => &[
+                (K::Line2, &[0, 1]),
+                (K::Line2, &[1, 2]),
+                (K::Line2, &[2, 0]),
+            ],
             K::Tri6 => &[
                 (K::Line3, &[0, 1, 3]),
                 (K::Line3, &[1, 2, 4]),
@@ -232,7 +236,14 @@ impl CellKind {
             Shape::Line => &[(0, 1, 2)],
             Shape::Triangle => &[(0, 1, 3), (1, 2, 4), (2, 0, 5)],
             Shape::Quadrilateral => &[(0, 1, 4), (1, 2, 5), (2, 3, 6), (3, 0, 7)],
-            Shape::Tetrahedron => &[(0, 1, 4), (1, 2, 5), (2, 0, 6), (0, 3, 7), (1, 3, 8), (2, 3, 9)],
+            Shape::Tetrahedron => &[
+                (0, 1, 4),
+                (1, 2, 5),
+                (2, 0, 6),
+                (0, 3, 7),
+                (1, 3, 8),
+                (2, 3, 9),
+            ],
             Shape::Hexahedron => {
                 let _ = K::Hex8;
                 &[
@@ -286,7 +297,13 @@ impl CellKind {
         if self.order() == 1 {
             return nodes;
         }
-        let mid = |a: [f64; 3], b: [f64; 3]| [(a[0] + b[0]) / 2.0, (a[1] + b[1]) / 2.0, (a[2] + b[2]) / 2.0];
+        let mid = |a: [f64; 3], b: [f64; 3]| {
+            [
+                (a[0] + b[0]) / 2.0,
+                (a[1] + b[1]) / 2.0,
+                (a[2] + b[2]) / 2.0,
+            ]
+        };
         for &(a, b, m) in self.edges() {
             debug_assert_eq!(m, nodes.len());
             nodes.push(mid(corners[a], corners[b]));
@@ -363,7 +380,11 @@ mod tests {
                 } else {
                     let c = x[f[2]];
                     let (u, v) = (sub(b, a), sub(c, a));
-                    [u[1] * v[2] - u[2] * v[1], u[2] * v[0] - u[0] * v[2], u[0] * v[1] - u[1] * v[0]]
+                    [
+                        u[1] * v[2] - u[2] * v[1],
+                        u[2] * v[0] - u[0] * v[2],
+                        u[0] * v[1] - u[1] * v[0],
+                    ]
                 };
                 let dot: f64 = (0..3).map(|d| normal[d] * outward[d]).sum();
                 assert!(dot > 0.0, "{k} facet {f:?} not outward");

@@ -31,9 +31,18 @@ pub enum MeshError {
     },
     /// A syntax or content error in a mesh file.
     #[error("{file}: {location}: in section {section}: {message}")]
-    Parse { file: String, location: Location, section: String, message: String },
+    Parse {
+        file: String,
+        location: Location,
+        section: String,
+        message: String,
+    },
     #[error("unknown {what} '{name}'; the mesh has: {}", if available.is_empty() { "(none)".to_string() } else { available.join(", ") })]
-    UnknownName { what: &'static str, name: String, available: Vec<String> },
+    UnknownName {
+        what: &'static str,
+        name: String,
+        available: Vec<String>,
+    },
     /// Cells whose Jacobian determinant is not positive somewhere.
     #[error("{} inverted or degenerate cell(s), ids: {}", cells.len(), list_ids(cells))]
     BadCells { cells: Vec<usize> },

@@ -15,7 +15,10 @@ pub struct CellBlock {
 
 impl CellBlock {
     pub fn new(kind: CellKind) -> Self {
-        CellBlock { kind, connectivity: Vec::new() }
+        CellBlock {
+            kind,
+            connectivity: Vec::new(),
+        }
     }
 
     pub fn n_cells(&self) -> usize {
@@ -75,7 +78,10 @@ impl Mesh {
             }
             first += n;
         }
-        panic!("cell id {cell} out of range (mesh has {} cells)", self.n_cells());
+        panic!(
+            "cell id {cell} out of range (mesh has {} cells)",
+            self.n_cells()
+        );
     }
 
     /// Kind and nodes of a global cell id.
@@ -107,29 +113,38 @@ impl Mesh {
 
     /// Look up a boundary by name; the error lists the names that exist.
     pub fn boundary(&self, name: &str) -> Result<&[Facet], MeshError> {
-        self.boundaries.get(name).map(Vec::as_slice).ok_or_else(|| MeshError::UnknownName {
-            what: "boundary",
-            name: name.to_string(),
-            available: self.boundaries.keys().cloned().collect(),
-        })
+        self.boundaries
+            .get(name)
+            .map(Vec::as_slice)
+            .ok_or_else(|| MeshError::UnknownName {
+                what: "boundary",
+                name: name.to_string(),
+                available: self.boundaries.keys().cloned().collect(),
+            })
     }
 
     /// Look up a region by name; the error lists the names that exist.
     pub fn region(&self, name: &str) -> Result<&[usize], MeshError> {
-        self.regions.get(name).map(Vec::as_slice).ok_or_else(|| MeshError::UnknownName {
-            what: "region",
-            name: name.to_string(),
-            available: self.regions.keys().cloned().collect(),
-        })
+        self.regions
+            .get(name)
+            .map(Vec::as_slice)
+            .ok_or_else(|| MeshError::UnknownName {
+                what: "region",
+                name: name.to_string(),
+                available: self.regions.keys().cloned().collect(),
+            })
     }
 
     /// Look up a node set by name; the error lists the names that exist.
     pub fn node_set(&self, name: &str) -> Result<&[usize], MeshError> {
-        self.node_sets.get(name).map(Vec::as_slice).ok_or_else(|| MeshError::UnknownName {
-            what: "node set",
-            name: name.to_string(),
-            available: self.node_sets.keys().cloned().collect(),
-        })
+        self.node_sets
+            .get(name)
+            .map(Vec::as_slice)
+            .ok_or_else(|| MeshError::UnknownName {
+                what: "node set",
+                name: name.to_string(),
+                available: self.node_sets.keys().cloned().collect(),
+            })
     }
 
     /// Sorted unique nodes on a named boundary.
@@ -201,7 +216,9 @@ impl Mesh {
         let n_cells = self.n_cells();
         for (name, cells) in &self.regions {
             if let Some(&c) = cells.iter().find(|&&c| c >= n_cells) {
-                return Err(MeshError::Invalid(format!("region '{name}' lists cell {c}, but the mesh has {n_cells} cells")));
+                return Err(MeshError::Invalid(format!(
+                    "region '{name}' lists cell {c}, but the mesh has {n_cells} cells"
+                )));
             }
         }
         for (name, facets) in &self.boundaries {
@@ -225,7 +242,9 @@ impl Mesh {
         }
         for (name, nodes) in &self.node_sets {
             if let Some(&n) = nodes.iter().find(|&&n| n >= n_points) {
-                return Err(MeshError::Invalid(format!("node set '{name}' lists node {n}, but the mesh has {n_points} nodes")));
+                return Err(MeshError::Invalid(format!(
+                    "node set '{name}' lists node {n}, but the mesh has {n_points} nodes"
+                )));
             }
         }
         Ok(())

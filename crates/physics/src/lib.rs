@@ -1,1 +1,11 @@
-//! dilata-physics (being written).
+//! # dilata-physics
+//!
+//! The weak forms as element kernels: local residuals and tangents for the cell and boundary
+//! terms, plus derived quantities (stress, invariants) recovered at nodes. Kernels implement the
+//! `dilata-fem` kernel traits; they see one cell at a time and never global data.
+
+pub mod cellcache;
+pub mod elasticity;
+pub mod norms;
+pub mod poisson;
+pub mod recovery;

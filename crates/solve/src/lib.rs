@@ -1,1 +1,12 @@
-//! dilata-solve (being written).
+//! # dilata-solve
+//!
+//! Solution drivers, generic over the [`newton::DiscreteSystem`] trait and the linear-solver
+//! trait; they never see physics types. Newton's method with line search lives here; time
+//! integration and loading programs join it as the coupled problems arrive.
+
+pub mod newton;
+
+pub use newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
+pub mod problem;
+
+pub use problem::{BoundaryLoad, BulkLaw, FieldProblem};

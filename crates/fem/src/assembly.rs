@@ -1,0 +1,605 @@
+//! The assembly driver: sparsity pattern, cell colouring, parallel deterministic scatter.
+//!
+//! Cells are split into colours such that no two cells of one colour share a node, hence no DOF
+//! and no matrix entry. Colours are processed one after another and the cells of a colour in
+//! parallel; every matrix and vector entry therefore receives its contributions in the same order
+//! (colour order, then the one cell of that colour touching it) whatever the number of threads,
+//! and the result is identical to the last bit for 1 and N threads.
+//!
+//! Kernels ([`CellKernel`], [`FacetKernel`]) see one cell at a time and write a dense local
+//! matrix and vector; they never see global data. The assembler never sees physics.
+
+use std::sync::Arc;
+
+use dilata_linalg::{CsrMatrix, CsrPattern, Parallelism};
+use dilata_mesh::{CellKind, Facet, Mesh};
+use rayon::prelude::{IndexedParallelIterator, ParallelIterator, ParallelSlice};
+
+use crate::constraints::Constraints;
+use crate::dofs::DofMap;
+
+/// One cell as a kernel sees it.
+#[derive(Clone, Copy, Debug)]
+pub struct CellInput<'a> {
+    /// Global cell id.
+    pub id: usize,
+    pub kind: CellKind,
+    /// Mesh nodes of the cell.
+    pub nodes: &'a [usize],
+    /// Coordinates of the cell's nodes.
+    pub coords: &'a [[f64; 3]],
+    /// Local-to-global DOF map (layout: see `DofMap::local_range`).
+    pub dofs: &'a [usize],
+}
+
+/// One boundary facet as a kernel sees it. Local outputs are sized for the parent cell's DOFs.
+#[derive(Clone, Copy, Debug)]
+pub struct FacetInput<'a> {
+    pub facet: Facet,
+    pub cell: CellInput<'a>,
+    pub facet_kind: CellKind,
+    /// Local node indices (within the parent cell) of the facet's nodes, outward-ordered.
+    pub local_nodes: &'a [usize],
+    /// Coordinates of the facet's nodes.
+    pub facet_coords: &'a [[f64; 3]],
+}
+
+/// Where local results go. The local matrix is row-major `n × n` with `n = input.dofs.len()`;
+/// both buffers are zeroed before each call. A kernel must fill only what is requested.
+pub struct LocalOutput<'a> {
+    pub matrix: Option<&'a mut [f64]>,
+    pub vector: Option<&'a mut [f64]>,
+}
+
+/// An element kernel: computes a local matrix and/or vector for one cell.
+pub trait CellKernel: Sync {
+    /// Per-thread scratch space (cell values, buffers), built once per thread task.
+    type Scratch: Send;
+    type Error: Send;
+    fn build_scratch(&self) -> Self::Scratch;
+    fn cell_into(
+        &self,
+        input: &CellInput<'_>,
+        scratch: &mut Self::Scratch,
+        out: LocalOutput<'_>,
+    ) -> Result<(), Self::Error>;
+}
+
+/// A boundary kernel: computes local contributions of one facet (sized for its parent cell).
+pub trait FacetKernel {
+    type Scratch;
+    type Error;
+    fn build_scratch(&self) -> Self::Scratch;
+    fn facet_into(
+        &self,
+        input: &FacetInput<'_>,
+        scratch: &mut Self::Scratch,
+        out: LocalOutput<'_>,
+    ) -> Result<(), Self::Error>;
+}
+
+/// What an assembly pass writes: a matrix on the assembler's pattern and/or a vector, with
+/// optional constraints and the values they prescribe (in constraint-slot order; for a Newton
+/// correction these are the increments).
+pub struct AssemblyTarget<'a> {
+    pub matrix: Option<&'a mut CsrMatrix>,
+    pub vector: Option<&'a mut [f64]>,
+    pub constraints: Option<(&'a Constraints, &'a [f64])>,
+}
+
+/// Sparsity pattern and colouring of one mesh and DOF map, built once and reused.
+pub struct Assembler {
+    pattern: Arc<CsrPattern>,
+    colors: Vec<Vec<usize>>,
+    pool: Option<rayon::ThreadPool>,
+    parallelism: Parallelism,
+}
+
+impl Assembler {
+    /// Build the pattern (from connectivity) and the colouring.
+    pub fn build(mesh: &Mesh, dofs: &DofMap, parallelism: Parallelism) -> Self {
+        let adjacency = build_node_adjacency(mesh);
+        let pattern = Arc::new(build_pattern(mesh, dofs, &adjacency));
+        let colors = build_colors(mesh, &adjacency.node_cells);
+        // The same `Parallelism` value as the linear solvers: `Sequential` assembles on the
+        // calling thread, `Rayon { threads }` on a private pool of that size (0: all cores).
+        let pool = match parallelism {
+            Parallelism::Sequential => None,
+            Parallelism::Rayon { threads } => {
+                let n = if threads == 0 {
+                    std::thread::available_parallelism().map_or(1, |n| n.get())
+                } else {
+                    threads
+                };
+                Some(
+                    rayon::ThreadPoolBuilder::new()
+                        .num_threads(n)
+                        .build()
+                        .expect("cannot start assembly threads"),
+                )
+            }
+        };
+        Assembler {
+            pattern,
+            colors,
+            pool,
+            parallelism,
+        }
+    }
+
+    pub fn pattern(&self) -> &Arc<CsrPattern> {
+        &self.pattern
+    }
+
+    pub fn n_colors(&self) -> usize {
+        self.colors.len()
+    }
+
+    pub fn parallelism(&self) -> Parallelism {
+        self.parallelism
+    }
+
+    /// A zero matrix on this assembler's pattern.
+    pub fn build_matrix(&self) -> CsrMatrix {
+        CsrMatrix::zeros(self.pattern.clone())
+    }
+
+    /// Zero the target's matrix and vector.
+    pub fn begin(&self, target: &mut AssemblyTarget<'_>) {
+        if let Some(m) = target.matrix.as_deref_mut() {
+            assert!(
+                Arc::ptr_eq(&m.pattern, &self.pattern) || *m.pattern == *self.pattern,
+                "matrix not on the assembler's pattern"
+            );
+            m.values.iter_mut().for_each(|v| *v = 0.0);
+        }
+        if let Some(v) = target.vector.as_deref_mut() {
+            v.iter_mut().for_each(|x| *x = 0.0);
+        }
+    }
+
+    /// Add the contributions of every cell, in parallel by colour.
+    pub fn add_cells<K: CellKernel>(
+        &self,
+        mesh: &Mesh,
+        dofs: &DofMap,
+        kernel: &K,
+        target: &mut AssemblyTarget<'_>,
+    ) -> Result<(), K::Error> {
+        let want_matrix = target.matrix.is_some();
+        let want_vector = target.vector.is_some();
+        let shared = SharedTarget {
+            matrix: target
+                .matrix
+                .as_deref_mut()
+                .map(|m| SharedSlice::new(&mut m.values)),
+            vector: target.vector.as_deref_mut().map(SharedSlice::new),
+        };
+        let constraints = target.constraints;
+        let pattern = &*self.pattern;
+        let n_max = dofs.max_cell_dofs();
+        let run_color = |cells: &[usize]| -> Result<(), K::Error> {
+            let work = |scratch: &mut (K::Scratch, LocalBuffers),
+                        chunk: &[usize]|
+             -> Result<(), K::Error> {
+                let (ks, buf) = scratch;
+                for &c in chunk {
+                    let (kind, nodes) = mesh.cell(c);
+                    let mut coords = std::mem::take(&mut buf.coords);
+                    coords.clear();
+                    coords.extend(nodes.iter().map(|&n| mesh.points[n]));
+                    let cd = dofs.cell_dofs(c);
+                    let n = cd.len();
+                    let input = CellInput {
+                        id: c,
+                        kind,
+                        nodes,
+                        coords: &coords,
+                        dofs: cd,
+                    };
+                    let (ke, fe) = buf.zeroed(n, want_matrix, want_vector);
+                    let result = kernel.cell_into(
+                        &input,
+                        ks,
+                        LocalOutput {
+                            matrix: ke,
+                            vector: fe,
+                        },
+                    );
+                    buf.coords = coords;
+                    result?;
+                    // SAFETY: cells of one colour share no node, hence no DOF, row or entry;
+                    // each entry is written by exactly one task of this colour.
+                    unsafe {
+                        scatter_local(
+                            pattern,
+                            cd,
+                            buf,
+                            &shared,
+                            constraints,
+                            want_matrix,
+                            want_vector,
+                        )
+                    };
+                }
+                Ok(())
+            };
+            match &self.pool {
+                None => {
+                    let mut s = (kernel.build_scratch(), LocalBuffers::new(n_max));
+                    work(&mut s, cells)
+                }
+                Some(pool) => pool.install(|| {
+                    cells.par_chunks(32).with_min_len(1).try_for_each_init(
+                        || (kernel.build_scratch(), LocalBuffers::new(n_max)),
+                        |s, chunk| work(s, chunk),
+                    )
+                }),
+            }
+        };
+        for cells in &self.colors {
+            run_color(cells)?;
+        }
+        Ok(())
+    }
+
+    /// Add the contributions of boundary facets (serially, in the given order).
+    pub fn add_facets<K: FacetKernel>(
+        &self,
+        mesh: &Mesh,
+        dofs: &DofMap,
+        facets: &[Facet],
+        kernel: &K,
+        target: &mut AssemblyTarget<'_>,
+    ) -> Result<(), K::Error> {
+        let want_matrix = target.matrix.is_some();
+        let want_vector = target.vector.is_some();
+        let shared = SharedTarget {
+            matrix: target
+                .matrix
+                .as_deref_mut()
+                .map(|m| SharedSlice::new(&mut m.values)),
+            vector: target.vector.as_deref_mut().map(SharedSlice::new),
+        };
+        let mut scratch = kernel.build_scratch();
+        let mut buf = LocalBuffers::new(dofs.max_cell_dofs());
+        let mut facet_coords = Vec::new();
+        for &f in facets {
+            let (kind, nodes) = mesh.cell(f.cell);
+            let mut coords = std::mem::take(&mut buf.coords);
+            coords.clear();
+            coords.extend(nodes.iter().map(|&n| mesh.points[n]));
+            let (fk, local) = kind.facets()[f.local as usize];
+            facet_coords.clear();
+            facet_coords.extend(local.iter().map(|&l| mesh.points[nodes[l]]));
+            let cd = dofs.cell_dofs(f.cell);
+            let n = cd.len();
+            let result = {
+                let input = FacetInput {
+                    facet: f,
+                    cell: CellInput {
+                        id: f.cell,
+                        kind,
+                        nodes,
+                        coords: &coords,
+                        dofs: cd,
+                    },
+                    facet_kind: fk,
+                    local_nodes: local,
+                    facet_coords: &facet_coords,
+                };
+                let (ke, fe) = buf.zeroed(n, want_matrix, want_vector);
+                kernel.facet_into(
+                    &input,
+                    &mut scratch,
+                    LocalOutput {
+                        matrix: ke,
+                        vector: fe,
+                    },
+                )
+            };
+            buf.coords = coords;
+            result?;
+            // SAFETY: serial loop, no concurrent writer.
+            unsafe {
+                scatter_local(
+                    &self.pattern,
+                    cd,
+                    &mut buf,
+                    &shared,
+                    target.constraints,
+                    want_matrix,
+                    want_vector,
+                )
+            };
+        }
+        Ok(())
+    }
+
+    /// Write the rows of constrained DOFs: `d · x_i = d · g_i` (see `constraints`).
+    pub fn finish(&self, target: &mut AssemblyTarget<'_>) {
+        let Some((cons, values)) = target.constraints else {
+            return;
+        };
+        assert_eq!(
+            values.len(),
+            cons.n_constrained(),
+            "one value per constrained DOF"
+        );
+        let d = cons.diagonal;
+        for (&dof, &g) in cons.dofs().iter().zip(values) {
+            if let Some(m) = target.matrix.as_deref_mut() {
+                let k = self
+                    .pattern
+                    .find(dof, dof)
+                    .expect("diagonal entry in pattern");
+                m.values[k] = d;
+            }
+            if let Some(v) = target.vector.as_deref_mut() {
+                v[dof] = d * g;
+            }
+        }
+    }
+
+    /// `begin`, `add_cells`, `finish` in one call.
+    pub fn assemble<K: CellKernel>(
+        &self,
+        mesh: &Mesh,
+        dofs: &DofMap,
+        kernel: &K,
+        mut target: AssemblyTarget<'_>,
+    ) -> Result<(), K::Error> {
+        self.begin(&mut target);
+        self.add_cells(mesh, dofs, kernel, &mut target)?;
+        self.finish(&mut target);
+        Ok(())
+    }
+}
+
+/// Per-thread local buffers (allocated once per task, reused for every cell).
+struct LocalBuffers {
+    matrix: Vec<f64>,
+    vector: Vec<f64>,
+    coords: Vec<[f64; 3]>,
+    /// Local indices sorted by global DOF.
+    order: Vec<usize>,
+}
+
+impl LocalBuffers {
+    fn new(n_max: usize) -> Self {
+        LocalBuffers {
+            matrix: vec![0.0; n_max * n_max],
+            vector: vec![0.0; n_max],
+            coords: Vec::with_capacity(27),
+            order: Vec::with_capacity(n_max),
+        }
+    }
+
+    fn zeroed(
+        &mut self,
+        n: usize,
+        matrix: bool,
+        vector: bool,
+    ) -> (Option<&mut [f64]>, Option<&mut [f64]>) {
+        let ke = if matrix {
+            let m = &mut self.matrix[..n * n];
+            m.iter_mut().for_each(|v| *v = 0.0);
+            Some(m)
+        } else {
+            None
+        };
+        let fe = if vector {
+            let v = &mut self.vector[..n];
+            v.iter_mut().for_each(|x| *x = 0.0);
+            Some(v)
+        } else {
+            None
+        };
+        (ke, fe)
+    }
+}
+
+/// A raw view of a mutable slice shared between tasks that write disjoint entries.
+#[derive(Clone, Copy)]
+struct SharedSlice {
+    ptr: *mut f64,
+    len: usize,
+}
+
+// SAFETY: only used for disjoint writes guaranteed by the colouring (see `add_cells`).
+unsafe impl Send for SharedSlice {}
+unsafe impl Sync for SharedSlice {}
+
+impl SharedSlice {
+    fn new(s: &mut [f64]) -> Self {
+        SharedSlice {
+            ptr: s.as_mut_ptr(),
+            len: s.len(),
+        }
+    }
+
+    /// # Safety
+    /// No other thread may access entry `i` concurrently.
+    #[inline]
+    unsafe fn add(&self, i: usize, v: f64) {
+        debug_assert!(i < self.len);
+        *self.ptr.add(i) += v;
+    }
+}
+
+struct SharedTarget {
+    matrix: Option<SharedSlice>,
+    vector: Option<SharedSlice>,
+}
+
+/// Scatter one local system into the global one, with constraint elimination.
+///
+/// # Safety
+/// No other thread may touch the rows of `dofs` concurrently.
+unsafe fn scatter_local(
+    pattern: &CsrPattern,
+    dofs: &[usize],
+    buf: &mut LocalBuffers,
+    target: &SharedTarget,
+    constraints: Option<(&Constraints, &[f64])>,
+    want_matrix: bool,
+    want_vector: bool,
+) {
+    let n = dofs.len();
+    buf.order.clear();
+    buf.order.extend(0..n);
+    buf.order.sort_unstable_by_key(|&a| dofs[a]);
+    for a in 0..n {
+        let i = dofs[a];
+        if let Some((cons, _)) = constraints {
+            if cons.is_constrained(i) {
+                continue;
+            }
+        }
+        if want_vector {
+            let mut f = buf.vector[a];
+            if let (Some((cons, values)), true) = (constraints, want_matrix) {
+                // Move known columns to the right-hand side.
+                let row = &buf.matrix[a * n..(a + 1) * n];
+                for (&j, &kab) in dofs.iter().zip(row) {
+                    if let Some(s) = cons.slot(j) {
+                        f -= kab * values[s];
+                    }
+                }
+            }
+            target.vector.expect("vector requested").add(i, f);
+        }
+        if want_matrix {
+            let m = target.matrix.expect("matrix requested");
+            // Merge the sorted local columns with the row's sorted pattern columns.
+            let start = pattern.row_ptr[i];
+            let cols = pattern.row(i);
+            let mut k = 0;
+            for &b in &buf.order {
+                let j = dofs[b];
+                if let Some((cons, _)) = constraints {
+                    if cons.is_constrained(j) {
+                        continue;
+                    }
+                }
+                while cols[k] < j {
+                    k += 1;
+                }
+                debug_assert_eq!(cols[k], j);
+                m.add(start + k, buf.matrix[a * n + b]);
+            }
+        }
+    }
+}
+
+/// Node-to-cell incidence.
+struct NodeAdjacency {
+    /// CSR: cells of each node.
+    node_cells: (Vec<usize>, Vec<usize>),
+    /// CSR: nodes sharing a cell with each node (sorted, including itself).
+    node_nodes: (Vec<usize>, Vec<usize>),
+}
+
+fn build_node_adjacency(mesh: &Mesh) -> NodeAdjacency {
+    let n_points = mesh.n_points();
+    let mut count = vec![0usize; n_points + 1];
+    for (_, _, nodes) in mesh.cells() {
+        for &n in nodes {
+            count[n + 1] += 1;
+        }
+    }
+    for i in 0..n_points {
+        count[i + 1] += count[i];
+    }
+    let mut fill = count.clone();
+    let mut cells = vec![0usize; count[n_points]];
+    for (c, _, nodes) in mesh.cells() {
+        for &n in nodes {
+            cells[fill[n]] = c;
+            fill[n] += 1;
+        }
+    }
+    let mut ptr = vec![0usize];
+    let mut adj = Vec::new();
+    let mut row = Vec::new();
+    for n in 0..n_points {
+        row.clear();
+        for &c in &cells[count[n]..count[n + 1]] {
+            row.extend_from_slice(mesh.cell(c).1);
+        }
+        row.sort_unstable();
+        row.dedup();
+        adj.extend_from_slice(&row);
+        ptr.push(adj.len());
+    }
+    NodeAdjacency {
+        node_cells: (count, cells),
+        node_nodes: (ptr, adj),
+    }
+}
+
+/// Pattern: DOF (field f, node n) couples with DOF (field g, node m) iff n and m share a cell.
+fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern {
+    let n = dofs.n_dofs();
+    let (nptr, nadj) = &adj.node_nodes;
+    let handles: Vec<_> = (0..dofs.n_fields()).map(crate::dofs::FieldHandle).collect();
+    let mut row_ptr = Vec::with_capacity(n + 1);
+    row_ptr.push(0);
+    let mut col_idx = Vec::new();
+    let mut row = Vec::new();
+    for &f in &handles {
+        let ncf = dofs.spec(f).n_components;
+        for node in dofs.field_nodes(f) {
+            row.clear();
+            for &g in &handles {
+                let ncg = dofs.spec(g).n_components;
+                for &m in &nadj[nptr[node]..nptr[node + 1]] {
+                    if let Ok(d0) = dofs.node_dof(g, m, 0) {
+                        row.extend(d0..d0 + ncg);
+                    }
+                }
+            }
+            debug_assert!(row.windows(2).all(|w| w[0] < w[1]));
+            for _ in 0..ncf {
+                col_idx.extend_from_slice(&row);
+                row_ptr.push(col_idx.len());
+            }
+        }
+    }
+    let _ = mesh;
+    CsrPattern {
+        n_rows: n,
+        n_cols: n,
+        row_ptr,
+        col_idx,
+    }
+}
+
+/// Greedy colouring: no two cells of one colour share a node. Deterministic (cell order).
+fn build_colors(mesh: &Mesh, node_cells: &(Vec<usize>, Vec<usize>)) -> Vec<Vec<usize>> {
+    let (ptr, cells) = node_cells;
+    let n_cells = mesh.n_cells();
+    let mut color = vec![usize::MAX; n_cells];
+    let mut forbidden: Vec<usize> = Vec::new(); // forbidden[k] == c marks colour k as taken for cell c
+    let mut colors: Vec<Vec<usize>> = Vec::new();
+    for (c, _, nodes) in mesh.cells() {
+        for &n in nodes {
+            for &other in &cells[ptr[n]..ptr[n + 1]] {
+                let k = color[other];
+                if k != usize::MAX {
+                    forbidden[k] = c;
+                }
+            }
+        }
+        let k = (0..forbidden.len())
+            .find(|&k| forbidden[k] != c)
+            .unwrap_or(forbidden.len());
+        if k == forbidden.len() {
+            forbidden.push(usize::MAX);
+            colors.push(Vec::new());
+        }
+        color[c] = k;
+        colors[k].push(c);
+    }
+    colors
+}

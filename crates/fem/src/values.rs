@@ -1,0 +1,360 @@
+//! Geometry modes, the isoparametric mapping and per-cell values at quadrature points.
+//!
+//! [`CellValues`] holds, for one cell kind and one quadrature rule, the tabulated reference shape
+//! functions of the geometry and of every interpolation space used by the fields; `reinit_into`
+//! maps one cell and fills physical gradients and integration weights in place (no allocation).
+
+use dilata_mesh::CellKind;
+
+use crate::quadrature::QuadratureRule;
+use crate::shape::ShapeTable;
+
+/// How a 2D or 3D mesh represents the body. A property of the problem, not of the element.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub enum GeometryMode {
+    /// Three-dimensional solid.
+    ThreeD,
+    /// 2D section of a long body: out-of-plane strain zero.
+    PlaneStrain,
+    /// 2D thin plate: out-of-plane stress zero.
+    PlaneStress,
+    /// 2D r–z section of a body of revolution; x is the radius r, y the axis z. Integration
+    /// weight `2πr`, hoop strain `u_r / r`.
+    Axisymmetric,
+}
+
+impl GeometryMode {
+    /// Spatial dimension of meshes this mode accepts.
+    pub const fn space_dim(self) -> usize {
+        match self {
+            GeometryMode::ThreeD => 3,
+            _ => 2,
+        }
+    }
+
+    /// Lower-case name used in files and messages.
+    pub const fn name(self) -> &'static str {
+        match self {
+            GeometryMode::ThreeD => "3d",
+            GeometryMode::PlaneStrain => "plane-strain",
+            GeometryMode::PlaneStress => "plane-stress",
+            GeometryMode::Axisymmetric => "axisymmetric",
+        }
+    }
+
+    /// Parse a name produced by [`GeometryMode::name`].
+    pub fn from_name(s: &str) -> Option<Self> {
+        [
+            Self::ThreeD,
+            Self::PlaneStrain,
+            Self::PlaneStress,
+            Self::Axisymmetric,
+        ]
+        .into_iter()
+        .find(|m| m.name() == s)
+    }
+}
+
+/// Failure to map a cell: its Jacobian determinant is not positive at a quadrature point.
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+#[error("cell {cell} is inverted or degenerate (Jacobian determinant {det:e} at quadrature point {point})")]
+pub struct InvertedCell {
+    pub cell: usize,
+    pub point: usize,
+    pub det: f64,
+}
+
+/// Interpolation space of a field on a cell: the kind whose shape functions it uses.
+/// `space_kind(mesh_kind, order)`: order 1 uses the linear kind, order 2 the mesh kind itself.
+pub fn space_kind(mesh_kind: CellKind, order: usize) -> Option<CellKind> {
+    match order {
+        1 => Some(mesh_kind.linear()),
+        2 if mesh_kind.order() == 2 => Some(mesh_kind),
+        _ => None,
+    }
+}
+
+/// Physical values of one interpolation space on the current cell.
+#[derive(Clone, Debug)]
+pub struct SpaceValues {
+    pub table: ShapeTable,
+    /// Physical gradients, `n_points × n_nodes`, point-major.
+    pub grads: Vec<[f64; 3]>,
+}
+
+impl SpaceValues {
+    /// Shape values at quadrature point `q`.
+    pub fn values(&self, q: usize) -> &[f64] {
+        self.table.values_at(q)
+    }
+
+    /// Physical shape gradients at quadrature point `q`.
+    pub fn grads(&self, q: usize) -> &[[f64; 3]] {
+        let n = self.table.n_nodes;
+        &self.grads[q * n..(q + 1) * n]
+    }
+
+    pub fn n_nodes(&self) -> usize {
+        self.table.n_nodes
+    }
+}
+
+/// Per-cell values for one cell kind and one quadrature rule.
+#[derive(Clone, Debug)]
+pub struct CellValues {
+    pub kind: CellKind,
+    pub mode: GeometryMode,
+    pub rule: QuadratureRule,
+    geometry: ShapeTable,
+    /// Spaces in the order given at construction.
+    pub spaces: Vec<SpaceValues>,
+    /// Integration weight per point: quadrature weight × det J (× 2πr in axisymmetry).
+    pub jxw: Vec<f64>,
+    /// Physical position of each quadrature point.
+    pub points: Vec<[f64; 3]>,
+    /// Jacobian determinant per point.
+    pub det: Vec<f64>,
+    inv_jac: Vec<[[f64; 3]; 3]>,
+}
+
+impl CellValues {
+    /// Values for cells of `kind`, with one entry in `spaces` per interpolation space kind
+    /// (e.g. `[Tet10, Tet4]`), all evaluated at the points of `rule`.
+    pub fn new(
+        kind: CellKind,
+        mode: GeometryMode,
+        rule: QuadratureRule,
+        spaces: &[CellKind],
+    ) -> Self {
+        let geometry = ShapeTable::new(kind, &rule.points);
+        let nq = rule.points.len();
+        let spaces = spaces
+            .iter()
+            .map(|&sk| {
+                assert_eq!(sk.shape(), kind.shape(), "space {sk} on a {kind} cell");
+                let table = ShapeTable::new(sk, &rule.points);
+                let grads = vec![[0.0; 3]; nq * table.n_nodes];
+                SpaceValues { table, grads }
+            })
+            .collect();
+        CellValues {
+            kind,
+            mode,
+            geometry,
+            spaces,
+            jxw: vec![0.0; nq],
+            points: vec![[0.0; 3]; nq],
+            det: vec![0.0; nq],
+            inv_jac: vec![[[0.0; 3]; 3]; nq],
+            rule,
+        }
+    }
+
+    pub fn n_points(&self) -> usize {
+        self.rule.points.len()
+    }
+
+    /// Map the cell with node coordinates `coords` (geometry nodes, in node order).
+    pub fn reinit(&mut self, cell: usize, coords: &[[f64; 3]]) -> Result<(), InvertedCell> {
+        let dim = self.kind.dim();
+        let n = self.geometry.n_nodes;
+        assert_eq!(coords.len(), n, "coordinates of a {} cell", self.kind);
+        for q in 0..self.n_points() {
+            let nv = self.geometry.values_at(q);
+            let dn = self.geometry.grads_at(q);
+            let mut x = [0.0; 3];
+            let mut jac = [[0.0; 3]; 3]; // jac[i][j] = d x_i / d xi_j
+            for a in 0..n {
+                for i in 0..3 {
+                    x[i] += nv[a] * coords[a][i];
+                }
+                for i in 0..dim {
+                    for j in 0..dim {
+                        jac[i][j] += coords[a][i] * dn[a][j];
+                    }
+                }
+            }
+            let (det, inv) = invert(dim, &jac);
+            if det.is_nan() || det <= 0.0 {
+                return Err(InvertedCell {
+                    cell,
+                    point: q,
+                    det,
+                });
+            }
+            let mut w = self.rule.weights[q] * det;
+            if self.mode == GeometryMode::Axisymmetric {
+                w *= 2.0 * std::f64::consts::PI * x[0];
+            }
+            self.jxw[q] = w;
+            self.points[q] = x;
+            self.det[q] = det;
+            self.inv_jac[q] = inv;
+        }
+        for s in &mut self.spaces {
+            let ns = s.table.n_nodes;
+            for q in 0..self.rule.points.len() {
+                let inv = &self.inv_jac[q];
+                let dref = s.table.grads_at(q);
+                let out = &mut s.grads[q * ns..(q + 1) * ns];
+                for a in 0..ns {
+                    let mut g = [0.0; 3];
+                    // dN/dx_i = sum_j dN/dxi_j * dxi_j/dx_i
+                    for i in 0..dim {
+                        for j in 0..dim {
+                            g[i] += dref[a][j] * inv[j][i];
+                        }
+                    }
+                    out[a] = g;
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Determinant and inverse of the leading `dim × dim` block.
+fn invert(dim: usize, m: &[[f64; 3]; 3]) -> (f64, [[f64; 3]; 3]) {
+    let mut inv = [[0.0; 3]; 3];
+    match dim {
+        1 => {
+            let d = m[0][0];
+            inv[0][0] = 1.0 / d;
+            (d, inv)
+        }
+        2 => {
+            let d = m[0][0] * m[1][1] - m[0][1] * m[1][0];
+            inv[0][0] = m[1][1] / d;
+            inv[0][1] = -m[0][1] / d;
+            inv[1][0] = -m[1][0] / d;
+            inv[1][1] = m[0][0] / d;
+            (d, inv)
+        }
+        3 => {
+            let c00 = m[1][1] * m[2][2] - m[1][2] * m[2][1];
+            let c01 = m[1][2] * m[2][0] - m[1][0] * m[2][2];
+            let c02 = m[1][0] * m[2][1] - m[1][1] * m[2][0];
+            let d = m[0][0] * c00 + m[0][1] * c01 + m[0][2] * c02;
+            inv[0][0] = c00 / d;
+            inv[1][0] = c01 / d;
+            inv[2][0] = c02 / d;
+            inv[0][1] = (m[0][2] * m[2][1] - m[0][1] * m[2][2]) / d;
+            inv[1][1] = (m[0][0] * m[2][2] - m[0][2] * m[2][0]) / d;
+            inv[2][1] = (m[0][1] * m[2][0] - m[0][0] * m[2][1]) / d;
+            inv[0][2] = (m[0][1] * m[1][2] - m[0][2] * m[1][1]) / d;
+            inv[1][2] = (m[0][2] * m[1][0] - m[0][0] * m[1][2]) / d;
+            inv[2][2] = (m[0][0] * m[1][1] - m[0][1] * m[1][0]) / d;
+            (d, inv)
+        }
+        _ => panic!("cell dimension {dim} has no Jacobian inverse"),
+    }
+}
+
+/// Values of a facet (boundary) integration: shape functions of the facet kind, the outward unit
+/// normal and the surface weight at each point.
+#[derive(Clone, Debug)]
+pub struct FacetValues {
+    pub kind: CellKind,
+    pub mode: GeometryMode,
+    pub rule: QuadratureRule,
+    /// Shape functions of facet spaces (facet kinds of each field's space), same order as given.
+    pub spaces: Vec<ShapeTable>,
+    geometry: ShapeTable,
+    /// Surface weight: quadrature weight × surface Jacobian (× 2πr in axisymmetry).
+    pub jxw: Vec<f64>,
+    pub points: Vec<[f64; 3]>,
+    /// Outward unit normal per point (given that facet nodes are ordered outward).
+    pub normals: Vec<[f64; 3]>,
+}
+
+impl FacetValues {
+    /// Facet values for facets of `kind` (Point1, Line2/3, Tri3/6, Quad4/8/9).
+    pub fn new(
+        kind: CellKind,
+        mode: GeometryMode,
+        rule: QuadratureRule,
+        spaces: &[CellKind],
+    ) -> Self {
+        let nq = rule.points.len();
+        let table = |k: CellKind| {
+            if k == CellKind::Point1 {
+                // A point facet has one shape function equal to one.
+                ShapeTable {
+                    kind: k,
+                    n_nodes: 1,
+                    n_points: nq,
+                    values: vec![1.0; nq],
+                    grads: vec![[0.0; 3]; nq],
+                }
+            } else {
+                ShapeTable::new(k, &rule.points)
+            }
+        };
+        let geometry = table(kind);
+        let spaces = spaces.iter().map(|&sk| table(sk)).collect();
+        FacetValues {
+            kind,
+            mode,
+            geometry,
+            spaces,
+            jxw: vec![0.0; nq],
+            points: vec![[0.0; 3]; nq],
+            normals: vec![[0.0; 3]; nq],
+            rule,
+        }
+    }
+
+    pub fn n_points(&self) -> usize {
+        self.rule.points.len()
+    }
+
+    /// Map one facet with outward-ordered node coordinates.
+    pub fn reinit(&mut self, coords: &[[f64; 3]]) {
+        let fdim = self.kind.dim();
+        for q in 0..self.n_points() {
+            let nv = self.geometry.values_at(q);
+            let dn = self.geometry.grads_at(q);
+            let mut x = [0.0; 3];
+            let mut t = [[0.0; 3]; 2];
+            for a in 0..nv.len() {
+                for i in 0..3 {
+                    x[i] += nv[a] * coords[a][i];
+                    for j in 0..fdim {
+                        t[j][i] += coords[a][i] * dn[a][j];
+                    }
+                }
+            }
+            let (normal, area) = match fdim {
+                // End point of a 1D domain: normal along the line direction is not known here;
+                // callers of 1D problems treat the weight as 1.
+                0 => ([0.0; 3], 1.0),
+                1 => {
+                    // Edge in 2D walked with the body on the left: outward normal (t_y, -t_x).
+                    let n = [t[0][1], -t[0][0], 0.0];
+                    let a = (n[0] * n[0] + n[1] * n[1]).sqrt();
+                    ([n[0] / a, n[1] / a, 0.0], a)
+                }
+                _ => {
+                    let n = cross(t[0], t[1]);
+                    let a = (n[0] * n[0] + n[1] * n[1] + n[2] * n[2]).sqrt();
+                    ([n[0] / a, n[1] / a, n[2] / a], a)
+                }
+            };
+            let mut w = self.rule.weights[q] * area;
+            if self.mode == GeometryMode::Axisymmetric {
+                w *= 2.0 * std::f64::consts::PI * x[0];
+            }
+            self.jxw[q] = w;
+            self.points[q] = x;
+            self.normals[q] = normal;
+        }
+    }
+}
+
+fn cross(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
+    [
+        a[1] * b[2] - a[2] * b[1],
+        a[2] * b[0] - a[0] * b[2],
+        a[0] * b[1] - a[1] * b[0],
+    ]
+}

@@ -1,0 +1,153 @@
+//! Scalar diffusion (Poisson) kernels: `−div(k grad u) = s` with boundary flux.
+//!
+//! Residual form: `r_a = ∫ k grad N_a · grad u dV − ∫ N_a s dV − ∫ N_a q̄ dA`, with `q̄` the
+//! inward boundary flux. The tangent is `K_ab = ∫ k grad N_a · grad N_b dV`.
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::quadrature::rule_for;
+use dilata_fem::values::{space_kind, FacetValues};
+use dilata_fem::{
+    CellInput, CellKernel, FacetInput, FacetKernel, FieldHandle, GeometryMode, InvertedCell,
+    LocalOutput,
+};
+
+use crate::cellcache::{stiffness_degree, CellValuesCache};
+
+/// A source or flux density as a function of position.
+pub type ScalarFn<'a> = &'a (dyn Fn([f64; 3]) -> f64 + Sync);
+
+/// Cell kernel of the scalar diffusion problem.
+pub struct PoissonKernel<'a> {
+    pub dofs: &'a DofMap,
+    pub field: FieldHandle,
+    pub mode: GeometryMode,
+    pub conductivity: f64,
+    pub source: Option<ScalarFn<'a>>,
+    /// Current solution (global vector); the residual is evaluated there.
+    pub solution: &'a [f64],
+}
+
+impl CellKernel for PoissonKernel<'_> {
+    type Scratch = CellValuesCache;
+    type Error = InvertedCell;
+
+    fn build_scratch(&self) -> CellValuesCache {
+        CellValuesCache::new(
+            self.mode,
+            stiffness_degree,
+            vec![self.dofs.spec(self.field).order],
+        )
+    }
+
+    fn cell_into(
+        &self,
+        input: &CellInput<'_>,
+        cache: &mut CellValuesCache,
+        out: LocalOutput<'_>,
+    ) -> Result<(), InvertedCell> {
+        let cv = cache.get(input.kind);
+        cv.reinit(input.id, input.coords)?;
+        let range = self.dofs.local_range(self.field, input.kind);
+        let n_loc = input.dofs.len();
+        let sv = &cv.spaces[0];
+        let nn = sv.n_nodes();
+        let LocalOutput {
+            mut matrix,
+            mut vector,
+        } = out;
+        for q in 0..cv.n_points() {
+            let w = cv.jxw[q];
+            let g = sv.grads(q);
+            let nv = sv.values(q);
+            if let Some(ke) = matrix.as_deref_mut() {
+                for a in 0..nn {
+                    for b in 0..nn {
+                        let dot = g[a][0] * g[b][0] + g[a][1] * g[b][1] + g[a][2] * g[b][2];
+                        ke[(range.start + a) * n_loc + range.start + b] +=
+                            self.conductivity * dot * w;
+                    }
+                }
+            }
+            if let Some(fe) = vector.as_deref_mut() {
+                let mut grad_u = [0.0; 3];
+                for a in 0..nn {
+                    let ua = self.solution[input.dofs[range.start + a]];
+                    for d in 0..3 {
+                        grad_u[d] += g[a][d] * ua;
+                    }
+                }
+                let s = self.source.map_or(0.0, |f| f(cv.points[q]));
+                for a in 0..nn {
+                    let dot = g[a][0] * grad_u[0] + g[a][1] * grad_u[1] + g[a][2] * grad_u[2];
+                    fe[range.start + a] += (self.conductivity * dot - nv[a] * s) * w;
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Boundary kernel: inward flux `q̄(x)` on facets (adds `−∫ N_a q̄ dA` to the residual).
+pub struct FluxKernel<'a> {
+    pub dofs: &'a DofMap,
+    pub field: FieldHandle,
+    pub mode: GeometryMode,
+    pub inward_flux: ScalarFn<'a>,
+}
+
+impl FacetKernel for FluxKernel<'_> {
+    type Scratch = Vec<FacetValues>;
+    type Error = std::convert::Infallible;
+
+    fn build_scratch(&self) -> Vec<FacetValues> {
+        Vec::new()
+    }
+
+    fn facet_into(
+        &self,
+        input: &FacetInput<'_>,
+        cache: &mut Vec<FacetValues>,
+        out: LocalOutput<'_>,
+    ) -> Result<(), Self::Error> {
+        let Some(fe) = out.vector else { return Ok(()) };
+        let order = self.dofs.spec(self.field).order;
+        let fk = input.facet_kind;
+        let fsk = space_kind(fk, order).unwrap_or(fk.linear());
+        let fv = facet_values(cache, fk, self.mode, fsk);
+        fv.reinit(input.facet_coords);
+        let range = self.dofs.local_range(self.field, input.cell.kind);
+        for q in 0..fv.n_points() {
+            let flux = (self.inward_flux)(fv.points[q]);
+            let nv = fv.spaces[0].values_at(q);
+            for (i, &val) in nv.iter().enumerate() {
+                // Facet node i is local cell node input.local_nodes[i].
+                let local = input.local_nodes[i];
+                fe[range.start + local] -= val * flux * fv.jxw[q];
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Cached facet values for one facet kind and space.
+pub(crate) fn facet_values(
+    cache: &mut Vec<FacetValues>,
+    kind: dilata_mesh::CellKind,
+    mode: GeometryMode,
+    space: dilata_mesh::CellKind,
+) -> &mut FacetValues {
+    let pos = match cache.iter().position(|f| f.kind == kind) {
+        Some(p) => p,
+        None => {
+            let degree = 2 * kind.order() + 2;
+            cache.push(FacetValues::new(
+                kind,
+                mode,
+                rule_for(kind.shape(), degree),
+                &[space],
+            ));
+            cache.len() - 1
+        }
+    };
+    &mut cache[pos]
+}

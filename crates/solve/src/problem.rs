@@ -1,0 +1,207 @@
+//! Single-field static problems (scalar diffusion, linear elasticity) as discrete systems.
+//!
+//! This is the glue between the generic drivers of this crate and the kernels of
+//! `dilata-physics`: it owns the DOF map, the assembler (pattern and colouring built once) and the
+//! constraints, and implements [`DiscreteSystem`].
+
+use std::sync::Arc;
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::{Assembler, AssemblyTarget, Constraints, FieldHandle, GeometryMode, InvertedCell};
+use dilata_linalg::{CsrMatrix, CsrPattern};
+use dilata_material::elastic::Stiffness;
+use dilata_mesh::{Facet, Mesh};
+use dilata_physics::elasticity::{ElasticityKernel, SurfaceLoad, SurfaceLoadKernel};
+use dilata_physics::poisson::{FluxKernel, PoissonKernel};
+
+use crate::newton::DiscreteSystem;
+
+/// A scalar function of position.
+pub type BoxScalarFn = Box<dyn Fn([f64; 3]) -> f64 + Sync + Send>;
+/// A vector function of position.
+pub type BoxVectorFn = Box<dyn Fn([f64; 3]) -> [f64; 3] + Sync + Send>;
+
+/// Bulk physics of a single-field problem.
+pub enum BulkLaw {
+    /// `−div(k grad u) = s`.
+    Diffusion {
+        conductivity: f64,
+        source: Option<BoxScalarFn>,
+    },
+    /// Linear elasticity with the mode's stiffness (see `mode_stiffness`) and a body force.
+    Elasticity {
+        stiffness: Box<Stiffness>,
+        body_force: Option<BoxVectorFn>,
+    },
+}
+
+/// A load on a set of boundary facets.
+pub enum BoundaryLoad {
+    /// Inward flux density (diffusion).
+    Flux(BoxScalarFn),
+    /// Traction vector (elasticity).
+    Traction(BoxVectorFn),
+    /// Pressure, positive into the body (elasticity).
+    Pressure(f64),
+}
+
+/// A single-field static problem on one mesh.
+pub struct FieldProblem<'m> {
+    pub mesh: &'m Mesh,
+    pub dofs: DofMap,
+    pub field: FieldHandle,
+    pub mode: GeometryMode,
+    pub assembler: Assembler,
+    pub constraints: Constraints,
+    pub law: BulkLaw,
+    pub loads: Vec<(Vec<Facet>, BoundaryLoad)>,
+    zero_increments: Vec<f64>,
+}
+
+impl<'m> FieldProblem<'m> {
+    /// Assemble nothing yet: builds the pattern and colouring from `dofs`.
+    pub fn new(
+        mesh: &'m Mesh,
+        dofs: DofMap,
+        field: FieldHandle,
+        mode: GeometryMode,
+        law: BulkLaw,
+        parallelism: dilata_fem::Parallelism,
+    ) -> Self {
+        let assembler = Assembler::build(mesh, &dofs, parallelism);
+        let constraints = Constraints::new(dofs.n_dofs());
+        FieldProblem {
+            mesh,
+            dofs,
+            field,
+            mode,
+            assembler,
+            constraints,
+            law,
+            loads: Vec::new(),
+            zero_increments: Vec::new(),
+        }
+    }
+
+    fn assemble(
+        &mut self,
+        x: &[f64],
+        matrix: Option<&mut CsrMatrix>,
+        residual: &mut [f64],
+    ) -> Result<(), InvertedCell> {
+        self.zero_increments.clear();
+        self.zero_increments
+            .resize(self.constraints.n_constrained(), 0.0);
+        let mut target = AssemblyTarget {
+            matrix,
+            vector: Some(residual),
+            constraints: Some((&self.constraints, &self.zero_increments)),
+        };
+        self.assembler.begin(&mut target);
+        match &self.law {
+            BulkLaw::Diffusion {
+                conductivity,
+                source,
+            } => {
+                let k = PoissonKernel {
+                    dofs: &self.dofs,
+                    field: self.field,
+                    mode: self.mode,
+                    conductivity: *conductivity,
+                    source: source
+                        .as_ref()
+                        .map(|f| f.as_ref() as &(dyn Fn([f64; 3]) -> f64 + Sync)),
+                    solution: x,
+                };
+                self.assembler
+                    .add_cells(self.mesh, &self.dofs, &k, &mut target)?;
+            }
+            BulkLaw::Elasticity {
+                stiffness,
+                body_force,
+            } => {
+                let k = ElasticityKernel {
+                    dofs: &self.dofs,
+                    field: self.field,
+                    mode: self.mode,
+                    stiffness: **stiffness,
+                    body_force: body_force
+                        .as_ref()
+                        .map(|f| f.as_ref() as &(dyn Fn([f64; 3]) -> [f64; 3] + Sync)),
+                    solution: x,
+                };
+                self.assembler
+                    .add_cells(self.mesh, &self.dofs, &k, &mut target)?;
+            }
+        }
+        for (facets, load) in &self.loads {
+            let result = match load {
+                BoundaryLoad::Flux(f) => {
+                    let k = FluxKernel {
+                        dofs: &self.dofs,
+                        field: self.field,
+                        mode: self.mode,
+                        inward_flux: f.as_ref(),
+                    };
+                    self.assembler
+                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
+                }
+                BoundaryLoad::Traction(f) => {
+                    let k = SurfaceLoadKernel {
+                        dofs: &self.dofs,
+                        field: self.field,
+                        mode: self.mode,
+                        load: SurfaceLoad::Traction(f.as_ref()),
+                    };
+                    self.assembler
+                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
+                }
+                BoundaryLoad::Pressure(p) => {
+                    let k = SurfaceLoadKernel {
+                        dofs: &self.dofs,
+                        field: self.field,
+                        mode: self.mode,
+                        load: SurfaceLoad::Pressure(*p),
+                    };
+                    self.assembler
+                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
+                }
+            };
+            match result {
+                Ok(()) => {}
+                Err(never) => match never {},
+            }
+        }
+        self.assembler.finish(&mut target);
+        Ok(())
+    }
+}
+
+impl DiscreteSystem for FieldProblem<'_> {
+    type Error = InvertedCell;
+
+    fn n_dofs(&self) -> usize {
+        self.dofs.n_dofs()
+    }
+
+    fn pattern(&self) -> Arc<CsrPattern> {
+        self.assembler.pattern().clone()
+    }
+
+    fn impose_constraints(&self, x: &mut [f64]) {
+        self.constraints.impose_into(x);
+    }
+
+    fn assemble_into(
+        &mut self,
+        x: &[f64],
+        jacobian: &mut CsrMatrix,
+        residual: &mut [f64],
+    ) -> Result<(), InvertedCell> {
+        self.assemble(x, Some(jacobian), residual)
+    }
+
+    fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), InvertedCell> {
+        self.assemble(x, None, residual)
+    }
+}

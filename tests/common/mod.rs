@@ -1,0 +1,96 @@
+//! Shared helpers of the integration tests.
+#![allow(dead_code)]
+
+use std::collections::BTreeSet;
+
+use dilata_linalg::{DirectParams, FaerCholesky, LinearSolver, Ordering};
+use dilata_mesh::Mesh;
+use dilata_solve::{newton, FieldProblem, NewtonParams};
+
+/// Nodes on any named boundary of the mesh.
+pub fn all_boundary_nodes(mesh: &Mesh) -> Vec<usize> {
+    let mut set = BTreeSet::new();
+    for name in mesh.boundaries.keys() {
+        set.extend(mesh.boundary_nodes(name).unwrap());
+    }
+    set.into_iter().collect()
+}
+
+/// Move every node not on a boundary by a deterministic pseudo-random offset of at most
+/// `amplitude × h` in each direction, then put the mid-edge nodes of quadratic cells back to
+/// the midpoint of their edge's corners, so the cells stay valid while the mesh loses all
+/// regularity.
+pub fn distort(mesh: &mut Mesh, h: f64, amplitude: f64) {
+    let fixed: BTreeSet<usize> = all_boundary_nodes(mesh).into_iter().collect();
+    let mut state: u64 = 0x2545_f491_4f6c_dd1d;
+    let mut next = || {
+        // xorshift64*; deterministic, no dependency.
+        state ^= state >> 12;
+        state ^= state << 25;
+        state ^= state >> 27;
+        (state.wrapping_mul(0x2545_f491_4f6c_dd1d) >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+    };
+    let dim = mesh.dim;
+    for (n, p) in mesh.points.iter_mut().enumerate() {
+        let shift: Vec<f64> = (0..dim).map(|_| next()).collect();
+        if !fixed.contains(&n) {
+            for d in 0..dim {
+                p[d] += amplitude * h * shift[d];
+            }
+        }
+    }
+    // Quadratic nodes back onto straight edges and face/cell centres.
+    let cells: Vec<(dilata_mesh::CellKind, Vec<usize>)> =
+        mesh.cells().map(|(_, k, n)| (k, n.to_vec())).collect();
+    for (kind, nodes) in &cells {
+        if kind.order() < 2 {
+            continue;
+        }
+        let x = |mesh: &Mesh, i: usize| mesh.points[nodes[i]];
+        for &(a, b, m) in kind.edges() {
+            let (pa, pb) = (x(mesh, a), x(mesh, b));
+            mesh.points[nodes[m]] = [
+                (pa[0] + pb[0]) / 2.0,
+                (pa[1] + pb[1]) / 2.0,
+                (pa[2] + pb[2]) / 2.0,
+            ];
+        }
+        let centre_of = |mesh: &Mesh, idx: &[usize]| {
+            let mut c = [0.0; 3];
+            for &i in idx {
+                let p = mesh.points[nodes[i]];
+                for d in 0..3 {
+                    c[d] += p[d] / idx.len() as f64;
+                }
+            }
+            c
+        };
+        match kind {
+            dilata_mesh::CellKind::Quad9 => mesh.points[nodes[8]] = centre_of(mesh, &[0, 1, 2, 3]),
+            dilata_mesh::CellKind::Hex27 => {
+                for (f, (_, face)) in dilata_mesh::CellKind::Hex8.facets().iter().enumerate() {
+                    mesh.points[nodes[20 + f]] = centre_of(mesh, face);
+                }
+                mesh.points[nodes[26]] = centre_of(mesh, &[0, 1, 2, 3, 4, 5, 6, 7]);
+            }
+            _ => {}
+        }
+    }
+}
+
+/// Solve a (linear) field problem by Newton with a direct solver; returns the solution.
+pub fn solve(problem: &mut FieldProblem<'_>) -> Vec<f64> {
+    let mut solver = FaerCholesky::new(DirectParams::with_ordering(Ordering::Amd));
+    solver.analyze(problem.assembler.pattern()).unwrap();
+    let mut x = vec![0.0; problem.dofs.n_dofs()];
+    let params = NewtonParams {
+        abs_tol: 0.0,
+        rel_tol: 1e-12,
+        step_tol: 1e-10,
+        max_iterations: 5,
+        max_backtracks: 0,
+    };
+    newton(problem, &mut solver, &mut x, &params)
+        .expect("linear problem solves in two Newton iterations");
+    x
+}
