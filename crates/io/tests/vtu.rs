@@ -458,6 +458,12 @@ fn wrong_length_names_the_array_and_the_expected_count() {
     let err = write_vtu(&path, &mesh, &[], &[clash]).unwrap_err();
     assert!(matches!(err, IoError::DuplicateArray { .. }), "{err:?}");
 
+    let mut broken = quad9_mesh();
+    broken.blocks[0].connectivity[17] = 15; // one past the last node
+    let err = write_vtu(&path, &broken, &[], &[]).unwrap_err();
+    assert!(matches!(err, IoError::InvalidMesh { .. }), "{err:?}");
+    assert!(err.to_string().contains("node 15"), "{err}");
+
     assert!(
         dir_listing(dir.path()).is_empty(),
         "a failed write left a file behind"
