@@ -138,7 +138,7 @@ impl LinearSolver for FaerCholesky {
         self.factored = false;
         let state = self.state.as_mut().ok_or_else(missing_analysis)?;
         state.pattern.check(matrix)?;
-        let a = faer_view(state.pattern.pattern(), &matrix.values);
+        let a = faer_view(&matrix.pattern, &matrix.values);
         let result = state.symbolic.factorize_numeric_llt(
             &mut self.l_values,
             a,
@@ -278,7 +278,7 @@ impl LinearSolver for FaerLdlt {
         let state = self.state.as_mut().ok_or_else(missing_analysis)?;
         state.pattern.check(matrix)?;
         let n = state.pattern.n();
-        let a = faer_view(state.pattern.pattern(), &matrix.values);
+        let a = faer_view(&matrix.pattern, &matrix.values);
         state.symbolic.factorize_numeric_intranode_lblt(
             &mut self.l_values,
             &mut self.subdiag,

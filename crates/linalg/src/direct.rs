@@ -37,18 +37,30 @@ pub struct DirectStats {
     pub factor_nnz: usize,
 }
 
-/// A copy of the analysed pattern, to reject a `factor` call on a different pattern.
-#[derive(Debug)]
+/// A fingerprint of the analysed pattern (dimensions and a hash of the index arrays), to reject
+/// a `factor` call on a different pattern without keeping a copy of a possibly large pattern.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct AnalysedPattern {
-    pattern: CsrPattern,
+    n: usize,
+    nnz: usize,
+    hash: u64,
+}
+
+fn pattern_hash(pattern: &CsrPattern) -> u64 {
+    use std::hash::{Hash, Hasher};
+    // DefaultHasher::new() uses fixed keys, so equal patterns hash equally within a run.
+    let mut h = std::collections::hash_map::DefaultHasher::new();
+    pattern.row_ptr.hash(&mut h);
+    pattern.col_idx.hash(&mut h);
+    h.finish()
 }
 
 impl AnalysedPattern {
-    /// Record `pattern`, which must be square.
+    /// Record `pattern`, which must be square and consistent.
     pub(crate) fn new(pattern: &CsrPattern) -> Result<Self, LinalgError> {
         if pattern.n_rows != pattern.n_cols {
             return Err(LinalgError::Usage(format!(
-                "direct solvers need a square matrix, got {}x{}",
+                "solver needs a square matrix, got {}x{}",
                 pattern.n_rows, pattern.n_cols
             )));
         }
@@ -58,14 +70,20 @@ impl AnalysedPattern {
             return Err(LinalgError::Usage("inconsistent CSR pattern".into()));
         }
         Ok(AnalysedPattern {
-            pattern: pattern.clone(),
+            n: pattern.n_rows,
+            nnz: pattern.nnz(),
+            hash: pattern_hash(pattern),
         })
     }
 
     /// Check that `matrix` lives on the analysed pattern and has one value per entry.
     pub(crate) fn check(&self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
         let p = matrix.pattern.as_ref();
-        if *p != self.pattern {
+        if p.n_rows != self.n
+            || p.n_cols != self.n
+            || p.nnz() != self.nnz
+            || pattern_hash(p) != self.hash
+        {
             return Err(LinalgError::Usage(
                 "factor called with a matrix whose pattern differs from the analysed one; \
                  call analyze again"
@@ -82,14 +100,9 @@ impl AnalysedPattern {
         Ok(())
     }
 
-    /// The analysed pattern.
-    pub(crate) fn pattern(&self) -> &CsrPattern {
-        &self.pattern
-    }
-
-    /// Its dimension.
+    /// The dimension of the analysed pattern.
     pub(crate) fn n(&self) -> usize {
-        self.pattern.n_rows
+        self.n
     }
 }
 

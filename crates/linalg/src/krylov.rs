@@ -10,7 +10,7 @@
 use rayon::prelude::{IndexedParallelIterator, IntoParallelRefMutIterator, ParallelIterator};
 
 use crate::csr::{CsrMatrix, CsrPattern};
-use crate::direct::check_rhs_len;
+use crate::direct::{check_rhs_len, AnalysedPattern};
 use crate::parallel::Parallelism;
 use crate::precond::{Ilu0Structure, Preconditioner, PreconditionerState};
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
@@ -45,7 +45,7 @@ pub(crate) struct KrylovCore {
     pub(crate) params: KrylovParams,
     pub(crate) preconditioner: Preconditioner,
     pub(crate) parallelism: Parallelism,
-    pattern: Option<CsrPattern>,
+    pattern: Option<AnalysedPattern>,
     ilu: Option<Ilu0Structure>,
     pub(crate) matrix: Option<CsrMatrix>,
     pub(crate) precond: Option<PreconditionerState>,
@@ -71,32 +71,23 @@ impl KrylovCore {
     pub(crate) fn analyze(&mut self, pattern: &CsrPattern) -> Result<(), LinalgError> {
         self.matrix = None;
         self.precond = None;
-        if pattern.n_rows != pattern.n_cols {
-            return Err(LinalgError::Usage(format!(
-                "Krylov solvers need a square matrix, got {}x{}",
-                pattern.n_rows, pattern.n_cols
-            )));
-        }
+        self.pattern = None;
+        let analysed = AnalysedPattern::new(pattern)?;
         self.ilu = match self.preconditioner {
             Preconditioner::Ilu0 => Some(Ilu0Structure::new(pattern)?),
             _ => None,
         };
-        self.pattern = Some(pattern.clone());
+        self.pattern = Some(analysed);
         Ok(())
     }
 
     pub(crate) fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
         self.matrix = None;
         self.precond = None;
-        let pattern = self
-            .pattern
+        self.pattern
             .as_ref()
-            .ok_or_else(|| LinalgError::Usage("factor called before analyze".into()))?;
-        if matrix.pattern.as_ref() != pattern || matrix.values.len() != pattern.nnz() {
-            return Err(LinalgError::Usage(
-                "factor called with a matrix on a different pattern than the analysed one".into(),
-            ));
-        }
+            .ok_or_else(|| LinalgError::Usage("factor called before analyze".into()))?
+            .check(matrix)?;
         self.precond = Some(PreconditionerState::build(
             self.preconditioner,
             matrix,

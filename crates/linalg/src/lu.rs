@@ -241,7 +241,7 @@ impl LinearSolver for FaerLu {
         for (t, &s) in self.t_values.iter_mut().zip(&state.t_src) {
             *t = matrix.values[s];
         }
-        let p = state.pattern.pattern();
+        let p = matrix.pattern.as_ref();
         let m = SparseColMatRef::new(
             SymbolicSparseColMatRef::new_checked(n, n, &p.row_ptr, None, &p.col_idx),
             &matrix.values[..],
