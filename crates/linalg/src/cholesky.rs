@@ -1,5 +1,5 @@
-//! Symmetric sparse direct solvers on faer: supernodal Cholesky `LLᵀ` for symmetric positive
-//! definite matrices and intranodal Bunch–Kaufman `LBLᵀ` for symmetric indefinite ones.
+//! Sparse Cholesky `LLᵀ` on faer for symmetric positive definite matrices, and the symbolic
+//! analysis it shares with the symmetric indefinite solver in [`crate::ldlt`].
 //!
 //! Both read the lower triangle of the full CSR input (row `i`, columns `j <= i`), compute the
 //! fill-reducing ordering and faer's symbolic factorisation once in `analyze`, and reuse that
@@ -9,8 +9,8 @@ use faer::dyn_stack::{MemBuffer, MemStack, StackReq};
 use faer::linalg::cholesky::llt::factor::LltError;
 use faer::perm::PermRef;
 use faer::sparse::linalg::cholesky::{
-    factorize_symbolic_cholesky, CholeskySymbolicParams, IntranodeLbltRef, LltRef,
-    SymbolicCholesky, SymmetricOrdering,
+    factorize_symbolic_cholesky, CholeskySymbolicParams, LltRef, SymbolicCholesky,
+    SymmetricOrdering,
 };
 use faer::sparse::linalg::SupernodalThreshold;
 use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
@@ -23,18 +23,18 @@ use crate::solver::{LinalgError, LinearSolver, SolveInfo};
 
 /// faer reads our CSR arrays as CSC, i.e. it sees `Aᵀ`, which equals `A` for a symmetric
 /// matrix. The CSR lower triangle (`j <= i`) is then the upper triangle of what faer sees.
-const FAER_SIDE: Side = Side::Upper;
+pub(crate) const FAER_SIDE: Side = Side::Upper;
 
 /// Everything computed by `analyze`.
-struct SymbolicState {
-    pattern: AnalysedPattern,
-    perm: Permutation,
-    symbolic: SymbolicCholesky<usize>,
+pub(crate) struct SymbolicState {
+    pub(crate) pattern: AnalysedPattern,
+    pub(crate) perm: Permutation,
+    pub(crate) symbolic: SymbolicCholesky<usize>,
     /// Workspace for numeric factorisation and solves, sized once.
-    mem: MemBuffer,
+    pub(crate) mem: MemBuffer,
 }
 
-fn analyze_symmetric(
+pub(crate) fn analyze_symmetric(
     pattern: &CsrPattern,
     params: DirectParams,
     threshold: SupernodalThreshold,
@@ -71,17 +71,20 @@ fn analyze_symmetric(
     })
 }
 
-fn faer_view<'a>(pattern: &'a CsrPattern, values: &'a [f64]) -> SparseColMatRef<'a, usize, f64> {
+pub(crate) fn faer_view<'a>(
+    pattern: &'a CsrPattern,
+    values: &'a [f64],
+) -> SparseColMatRef<'a, usize, f64> {
     let n = pattern.n_rows;
     let a = SymbolicSparseColMatRef::new_checked(n, n, &pattern.row_ptr, None, &pattern.col_idx);
     SparseColMatRef::new(a, values)
 }
 
-fn missing_analysis() -> LinalgError {
+pub(crate) fn missing_analysis() -> LinalgError {
     LinalgError::Usage("factor called before analyze".into())
 }
 
-fn missing_factor() -> LinalgError {
+pub(crate) fn missing_factor() -> LinalgError {
     LinalgError::Usage("solve called before a successful factor".into())
 }
 
@@ -183,135 +186,5 @@ impl LinearSolver for FaerCholesky {
 
     fn name(&self) -> String {
         format!("faer-cholesky/{}", self.params.ordering.name())
-    }
-}
-
-/// Sparse symmetric indefinite `A = P L B Lᵀ Pᵀ` with Bunch–Kaufman pivoting (1x1 and 2x2
-/// blocks in `B`) restricted to each supernode ("intranodal"), from faer. The supernodal
-/// variant is forced, because faer's simplicial fallback for this routine is an unpivoted
-/// `LDLᵀ` whose errors it discards (faer 0.24.4, cholesky.rs,
-/// factorize_numeric_intranode_lblt).
-///
-/// Limitation: pivots are never delayed to a parent supernode, so a matrix whose stable
-/// pivots lie outside the current supernode may break down. faer reports no error then; a
-/// breakdown is detected as non-finite numbers in a probe solve after factorisation and
-/// returned as [`LinalgError::Singular`]. A tiny but non-zero pivot is not detected.
-pub struct FaerLdlt {
-    params: DirectParams,
-    state: Option<SymbolicState>,
-    l_values: Vec<f64>,
-    subdiag: Vec<f64>,
-    pivot_fwd: Vec<usize>,
-    pivot_inv: Vec<usize>,
-    factored: bool,
-    stats: DirectStats,
-}
-
-impl FaerLdlt {
-    /// A symmetric indefinite solver with the given ordering and threads.
-    pub fn new(params: DirectParams) -> Self {
-        FaerLdlt {
-            params,
-            state: None,
-            l_values: Vec::new(),
-            subdiag: Vec::new(),
-            pivot_fwd: Vec::new(),
-            pivot_inv: Vec::new(),
-            factored: false,
-            stats: DirectStats::default(),
-        }
-    }
-
-    /// Counts of analyses and factorisations, and the size of `L`.
-    pub fn stats(&self) -> DirectStats {
-        self.stats
-    }
-
-    /// The fill-reducing permutation of the last analysis.
-    pub fn permutation(&self) -> Option<&Permutation> {
-        self.state.as_ref().map(|s| &s.perm)
-    }
-
-    fn solve_with_factor(&mut self, rhs: &mut [f64]) -> Result<(), LinalgError> {
-        let state = self.state.as_mut().ok_or_else(missing_factor)?;
-        let n = state.pattern.n();
-        let lblt = IntranodeLbltRef::new(
-            &state.symbolic,
-            &self.l_values,
-            &self.subdiag,
-            PermRef::new_checked(&self.pivot_fwd, &self.pivot_inv, n),
-        );
-        lblt.solve_in_place_with_conj(
-            Conj::No,
-            MatMut::from_column_major_slice_mut(rhs, n, 1),
-            self.params.parallelism.to_faer(),
-            MemStack::new(&mut state.mem),
-        );
-        check_finite(rhs)
-    }
-}
-
-impl LinearSolver for FaerLdlt {
-    fn analyze(&mut self, pattern: &CsrPattern) -> Result<(), LinalgError> {
-        self.state = None;
-        self.factored = false;
-        let par = self.params.parallelism.to_faer();
-        let state = analyze_symmetric(
-            pattern,
-            self.params,
-            SupernodalThreshold::FORCE_SUPERNODAL,
-            |s| s.factorize_numeric_intranode_lblt_scratch::<f64>(par, Default::default()),
-        )?;
-        let n = pattern.n_rows;
-        self.l_values = vec![0.0; state.symbolic.len_val()];
-        self.subdiag = vec![0.0; n];
-        self.pivot_fwd = (0..n).collect();
-        self.pivot_inv = (0..n).collect();
-        self.stats.n_analyses += 1;
-        self.stats.factor_nnz = state.symbolic.len_val();
-        self.state = Some(state);
-        Ok(())
-    }
-
-    fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
-        self.factored = false;
-        let state = self.state.as_mut().ok_or_else(missing_analysis)?;
-        state.pattern.check(matrix)?;
-        let n = state.pattern.n();
-        let a = faer_view(&matrix.pattern, &matrix.values);
-        state.symbolic.factorize_numeric_intranode_lblt(
-            &mut self.l_values,
-            &mut self.subdiag,
-            &mut self.pivot_fwd,
-            &mut self.pivot_inv,
-            a,
-            FAER_SIDE,
-            self.params.parallelism.to_faer(),
-            MemStack::new(&mut state.mem),
-            Default::default(),
-        );
-        self.stats.n_factorizations += 1;
-        // Probe solve: a zero pivot leaves infinities or NaNs in the factor (see type docs).
-        let mut probe = vec![1.0; n];
-        self.solve_with_factor(&mut probe)?;
-        self.factored = true;
-        Ok(())
-    }
-
-    fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
-        let n = self.state.as_ref().ok_or_else(missing_factor)?.pattern.n();
-        if !self.factored {
-            return Err(missing_factor());
-        }
-        check_rhs_len(n, rhs)?;
-        self.solve_with_factor(rhs)?;
-        Ok(SolveInfo {
-            iterations: 0,
-            residual: None,
-        })
-    }
-
-    fn name(&self) -> String {
-        format!("faer-ldlt/{}", self.params.ordering.name())
     }
 }

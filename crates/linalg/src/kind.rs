@@ -12,10 +12,11 @@
 //! | `bicgstab`, `bicgstab-none`, `bicgstab-jacobi`, `bicgstab-ilu0` | [`BiCgStab`] |
 //! | `gmres`, `gmres-none`, `gmres-jacobi`, `gmres-ilu0` | [`Gmres`] |
 
-use crate::cholesky::{FaerCholesky, FaerLdlt};
+use crate::cholesky::FaerCholesky;
 use crate::direct::DirectParams;
 use crate::gmres::Gmres;
 use crate::krylov::{BiCgStab, Cg, KrylovParams};
+use crate::ldlt::FaerLdlt;
 use crate::lu::FaerLu;
 use crate::ordering::Ordering;
 use crate::parallel::Parallelism;

@@ -4,8 +4,8 @@
 mod problems;
 
 use dilata_linalg::{
-    build_permutation, CsrMatrix, DirectParams, FaerCholesky, FaerLdlt, FaerLu, LinalgError,
-    LinearSolver, Ordering, Parallelism,
+    build_permutation, CsrMatrix, DirectParams, FaerCholesky, FaerLdlt, FaerLu, LdltPivoting,
+    LinalgError, LinearSolver, Ordering, Parallelism, SignedPivots, SolveInfo,
 };
 
 use problems::{
@@ -18,15 +18,16 @@ const ORDERINGS: [Ordering; 3] = [Ordering::NestedDissection, Ordering::Amd, Ord
 /// Solve `A x = A x_true` and check the residual (<= 1e-10) and the error against `x_true`.
 /// The error bound 1e-8 is loose against cond(A) * eps for these matrices (cond <= ~1e3):
 /// standard perturbation bound, Golub & Van Loan, Matrix Computations, 4th ed., sec. 2.6.
-fn check_solves(solver: &mut dyn LinearSolver, a: &CsrMatrix) {
+fn check_solves(solver: &mut dyn LinearSolver, a: &CsrMatrix) -> SolveInfo {
     let x_true = manufactured_x(a.n_rows());
     let b = a.mul_vec(&x_true);
     let mut x = b.clone();
-    solver.solve_in_place(&mut x).expect("solve");
+    let info = solver.solve_in_place(&mut x).expect("solve");
     let res = relative_residual(a, &x, &b);
     let err = relative_error(&x, &x_true);
     assert!(res <= 1e-10, "{}: relative residual {res:e}", solver.name());
     assert!(err <= 1e-8, "{}: relative error {err:e}", solver.name());
+    info
 }
 
 fn analyze_factor(solver: &mut dyn LinearSolver, a: &CsrMatrix) -> Result<(), LinalgError> {
@@ -364,4 +365,36 @@ fn saddle_point_ldlt_is_accurate_or_an_error_and_lu_solves_it() {
     let mut natural = FaerLdlt::new(DirectParams::with_ordering(Ordering::Natural));
     analyze_factor(&mut natural, &a).expect("natural ordering keeps constraints last");
     check_solves(&mut natural, &a);
+}
+
+#[test]
+fn signed_ldlt_solves_quasi_definite_and_saddle_point() {
+    let (nx, m) = (12, 20);
+    let n_k = nx * nx;
+    let signs: Vec<i8> = (0..n_k + m).map(|i| if i < n_k { 1 } else { -1 }).collect();
+    // Quasi-definite: [K Bᵀ; B -C] with C = 0.5 I; LDLᵀ exists for every symmetric ordering
+    // (Vanderbei 1995, from memory), so no regularisation should be needed.
+    let mut qd = saddle_point(nx, m);
+    for r in n_k..n_k + m {
+        let d = qd.pattern.find(r, r).unwrap();
+        qd.values[d] = -0.5;
+    }
+    // Saddle point with a zero block: pivots may be regularised, refinement must recover.
+    let sp = saddle_point(nx, m);
+    for (label, a) in [("quasi-definite", &qd), ("saddle point", &sp)] {
+        for ordering in ORDERINGS {
+            let pivoting = LdltPivoting::Signed(SignedPivots::with_signs(signs.clone()));
+            let mut s = FaerLdlt::with_pivoting(DirectParams::with_ordering(ordering), pivoting);
+            analyze_factor(&mut s, a).expect("factor");
+            let info = check_solves(&mut s, a);
+            eprintln!(
+                "{label}, {ordering:?}: {} refinement steps",
+                info.iterations
+            );
+            if label == "quasi-definite" {
+                // Unperturbed factorisation: at most one correction for rounding.
+                assert!(info.iterations <= 1, "{ordering:?}: {info:?}");
+            }
+        }
+    }
 }
