@@ -1,8 +1,16 @@
 //! # dilata-material
 //!
 //! Pointwise constitutive laws on small tensors and scalars: elastic stiffness, stress
-//! invariants (and, as the coupled physics grows, free energies and mobilities). Every law is a
-//! pure function of its inputs. Depends on neither the mesh nor the finite-element crates.
+//! invariants, free energies and mobilities. Every law is a pure function of its inputs that
+//! returns its values and every derivative Newton needs. Depends on neither the mesh nor the
+//! finite-element crates.
+//!
+//! Modules: [`elastic`] (linear elastic stiffness, Voigt conventions, invariants),
+//! [`stiffness`] (stiffness as a function of concentration), [`chemical`] (chemical free
+//! energies: ideal dilute, lattice gas), [`mobility`] (mobility tensors `M(c)`), [`swelling`]
+//! (swelling strain and the stress-dependent chemical potential), [`coupled`] (the small-strain
+//! deformation–diffusion law at one point, all tangent blocks) and [`error`] (parameter errors
+//! and recoverable range errors).
 //!
 //! ```
 //! use dilata_material::elastic::{hydrostatic, Isotropic, Voigt};
@@ -13,4 +21,10 @@
 //! assert!((hydrostatic(&s) - 3.0 * steel.bulk() * e).abs() < 1e-6);
 //! ```
 
+pub mod chemical;
+pub mod coupled;
 pub mod elastic;
+pub mod error;
+pub mod mobility;
+pub mod stiffness;
+pub mod swelling;
