@@ -11,7 +11,7 @@
 
 use nalgebra::Cholesky;
 
-use crate::elastic::{ElasticError, Isotropic, Stiffness};
+use crate::elastic::{condense_plane_stress, ElasticError, Isotropic, Stiffness};
 use crate::error::{positive, ParameterError, RangeError, RangeLaw};
 
 /// Stiffness and its concentration derivatives at one point.
@@ -95,6 +95,30 @@ impl StiffnessLaw {
                 slope: (params.young_at_max - params.young_at_zero) / params.c_max,
             },
         })
+    }
+
+    /// The same law condensed for plane stress (`σ_zz = 0`, `ε_zz` eliminated) with
+    /// [`condense_plane_stress`]: the returned stiffness and its derivatives have zero `zz` rows
+    /// and columns and act on the in-plane (and out-of-plane shear) strains. Used with the
+    /// coupled law this is exact, swelling included: the free `ε_zz` absorbs `ε_c,zz`, and by
+    /// the envelope theorem `∂W/∂c` of the condensed energy equals the 3D one at the `ε_zz` that
+    /// makes `σ_zz = 0`. Exact for the linear-Young law because condensation commutes with the
+    /// scaling by `E(c)`; a constant stiffness must not couple `zz` with the out-of-plane shears
+    /// (as for the requirement of [`condense_plane_stress`]).
+    pub fn plane_stress(&self) -> Self {
+        let form = match &self.form {
+            Form::Constant(s) => Form::Constant(condense_plane_stress(s).0),
+            Form::LinearYoung {
+                unit,
+                young_at_zero,
+                slope,
+            } => Form::LinearYoung {
+                unit: condense_plane_stress(unit).0,
+                young_at_zero: *young_at_zero,
+                slope: *slope,
+            },
+        };
+        StiffnessLaw { form }
     }
 
     /// `C(c)` and its derivatives. The linear law is extrapolated linearly outside

@@ -136,11 +136,18 @@ fn eval(law: &CoupledPointLaw, i: &PointInput) -> PointOutput {
     law.evaluate(i).unwrap()
 }
 
+/// The same law with its stiffness condensed for plane stress.
+fn plane_stress(law: &CoupledPointLaw) -> CoupledPointLaw {
+    let mut parts = *law.parts();
+    parts.stiffness = parts.stiffness.plane_stress();
+    CoupledPointLaw::new(parts).unwrap()
+}
+
 /// Every tangent block of `evaluate` against central differences of its outputs, and the
 /// stress and local potential against central differences of the total free energy, for both
 /// chemical laws, isotropic and tensor swelling, constant and concentration-dependent
-/// stiffness, concentration-dependent and constant mobility (design.md habit 10; common
-/// practice, no source).
+/// stiffness, concentration-dependent and constant mobility, 3D and plane stress (design.md
+/// habit 10; common practice, no source).
 #[test]
 fn every_tangent_block_matches_central_differences() {
     let chems = [Chem::Dilute, Chem::Lattice];
@@ -153,18 +160,61 @@ fn every_tangent_block_matches_central_differences() {
             for stiff in stiffs {
                 for mob in mobs {
                     for c in [3.0e3, 1.4e4] {
-                        check_case(
-                            &law(chem, swell, stiff, mob),
-                            c,
-                            &format!("{chem:?}/{swell:?}/{stiff:?}/{mob:?}/c={c}"),
-                        );
-                        n_cases += 1;
+                        let full = law(chem, swell, stiff, mob);
+                        let case = format!("{chem:?}/{swell:?}/{stiff:?}/{mob:?}/c={c}");
+                        check_case(&full, c, &case);
+                        check_case(&plane_stress(&full), c, &format!("{case}/plane stress"));
+                        n_cases += 2;
                     }
                 }
             }
         }
     }
-    assert_eq!(n_cases, 32);
+    assert_eq!(n_cases, 64);
+}
+
+/// Plane stress through the condensed stiffness equals the 3D law at the out-of-plane strain
+/// that makes σ_zz = 0: same in-plane stress, potential and energy; the concentration
+/// tangents equal the 3D ones after eliminating ε_zz (static condensation, common practice,
+/// no source).
+#[test]
+fn plane_stress_equals_3d_with_free_out_of_plane_strain() {
+    for chem in [Chem::Dilute, Chem::Lattice] {
+        for swell in [Swell::Isotropic, Swell::Tensor] {
+            for stiff in [Stiff::Constant, Stiff::LinearYoung] {
+                let full = law(chem, swell, stiff, Mob::Matching);
+                let plane = plane_stress(&full);
+                let case = format!("{chem:?}/{swell:?}/{stiff:?}");
+                let c = 9.0e3;
+                let mut i = input(c);
+                i.strain[2] = 0.0;
+                let p = eval(&plane, &i);
+                assert_eq!(p.stress[2], 0.0, "{case}");
+                // σ_zz is affine in ε_zz with slope C_zz: one Newton step solves σ_zz = 0.
+                let trial = eval(&full, &i);
+                i.strain[2] -= trial.stress[2] / trial.dstress_dstrain[(2, 2)];
+                let f = eval(&full, &i);
+                let scale = f.stress.amax();
+                assert!(f.stress[2].abs() < 1e-9 * scale, "{case}");
+                assert!((f.stress - p.stress).amax() < 1e-9 * scale, "{case}");
+                assert!(
+                    (f.mu_local - p.mu_local).abs() < 1e-9 * f.mu_local.abs(),
+                    "{case}"
+                );
+                assert!((f.elastic_energy - p.elastic_energy).abs() < 1e-9 * f.elastic_energy);
+                let czz = f.dstress_dstrain[(2, 2)];
+                let dmu_dc = f.dmu_dc - f.dmu_dstrain[2] * f.dstress_dc[2] / czz;
+                assert!((dmu_dc - p.dmu_dc).abs() < 1e-9 * p.dmu_dc.abs(), "{case}");
+                for k in [0, 1, 3, 4, 5] {
+                    let ds = f.dstress_dc[k] - f.dstress_dstrain[(k, 2)] * f.dstress_dc[2] / czz;
+                    assert!(
+                        (ds - p.dstress_dc[k]).abs() < 1e-9 * p.dstress_dc.amax(),
+                        "{case}"
+                    );
+                }
+            }
+        }
+    }
 }
 
 fn check_case(law: &CoupledPointLaw, c: f64, case: &str) {
