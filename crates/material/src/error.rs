@@ -73,7 +73,9 @@ impl std::fmt::Display for RangeLaw {
 pub enum RangeError {
     /// Concentration `c` (mol/m³) outside the interval `[lower, upper]` (open or closed
     /// depending on the law, see [`RangeLaw`]) where `law` is defined.
-    #[error("{law}: concentration {c} mol/m³ outside its admissible range [{lower}, {upper}]")]
+    #[error(
+        "{law}: concentration {c} mol/m³ outside its admissible range (bounds {lower}, {upper})"
+    )]
     OutOfRange {
         law: RangeLaw,
         c: f64,
