@@ -9,7 +9,8 @@ use std::hint::black_box;
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion};
 use dilata_linalg::{
-    CsrMatrix, DirectParams, FaerCholesky, FaerLu, LinearSolver, Ordering, Parallelism,
+    build_permutation, CsrMatrix, DirectParams, FaerCholesky, FaerLu, LinearSolver, Ordering,
+    Parallelism,
 };
 
 const ORDERINGS: [Ordering; 2] = [Ordering::NestedDissection, Ordering::Amd];
@@ -69,6 +70,18 @@ fn cholesky(c: &mut Criterion) {
     group.finish();
 }
 
+fn ordering(c: &mut Criterion) {
+    let a = problems::laplacian_3d(30);
+    let mut group = c.benchmark_group("ordering_lap3d_30");
+    group.sample_size(10);
+    for ordering in ORDERINGS {
+        group.bench_function(ordering.name(), |b| {
+            b.iter(|| build_permutation(black_box(&a.pattern), ordering).expect("ordering"))
+        });
+    }
+    group.finish();
+}
+
 fn lu(c: &mut Criterion) {
     let a = problems::laplacian_3d(20);
     let mut group = c.benchmark_group("lu_lap3d_20");
@@ -83,5 +96,5 @@ fn lu(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, cholesky, lu);
+criterion_group!(benches, ordering, cholesky, lu);
 criterion_main!(benches);
