@@ -398,3 +398,43 @@ fn signed_ldlt_solves_quasi_definite_and_saddle_point() {
         }
     }
 }
+
+#[test]
+fn symmetric_solvers_read_only_the_lower_triangle() {
+    // Spoil the strict upper triangle: the symmetric solvers must not look at it.
+    let a = laplacian_3d(6);
+    let mut spoiled = a.clone();
+    let p = a.pattern.clone();
+    for i in 0..p.n_rows {
+        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+            if p.col_idx[k] > i {
+                spoiled.values[k] *= 7.0;
+            }
+        }
+    }
+    let x_true = manufactured_x(a.n_rows());
+    let b = a.mul_vec(&x_true);
+    let mut solvers: Vec<Box<dyn LinearSolver>> = vec![
+        Box::new(FaerCholesky::new(DirectParams::default())),
+        Box::new(FaerLdlt::new(DirectParams::default())),
+    ];
+    for s in solvers.iter_mut() {
+        analyze_factor(s.as_mut(), &spoiled).expect("factor");
+        let mut x = b.clone();
+        s.solve_in_place(&mut x).expect("solve");
+        let err = relative_error(&x, &x_true);
+        assert!(err <= 1e-10, "{}: error {err:e}", s.name());
+    }
+}
+
+#[test]
+fn lu_with_rayon_threads_solves() {
+    let a = convection_diffusion_2d(40, 30, 0.6);
+    let params = DirectParams {
+        ordering: Ordering::NestedDissection,
+        parallelism: Parallelism::Rayon { threads: 2 },
+    };
+    let mut s = FaerLu::new(params);
+    analyze_factor(&mut s, &a).expect("factor");
+    check_solves(&mut s, &a);
+}

@@ -306,3 +306,24 @@ fn names_round_trip_and_every_kind_solves_an_spd_system() {
     assert_eq!(SolverKind::from_name("cg-metis"), None);
     assert_eq!(SolverKind::from_name("magic"), None);
 }
+
+#[test]
+fn krylov_misuse_is_reported() {
+    let a = laplacian_2d(5, 5);
+    let mut s = Cg::new(Preconditioner::Ilu0, params(1e-10), Parallelism::Sequential);
+    assert!(matches!(s.factor(&a), Err(LinalgError::Usage(_))));
+    let mut x = vec![0.0; a.n_rows()];
+    assert!(matches!(
+        s.solve_in_place(&mut x),
+        Err(LinalgError::Usage(_))
+    ));
+    s.analyze(&a.pattern).unwrap();
+    let other = laplacian_2d(4, 6);
+    assert!(matches!(s.factor(&other), Err(LinalgError::Usage(_))));
+    s.factor(&a).unwrap();
+    let mut short = vec![0.0; 3];
+    assert!(matches!(
+        s.solve_in_place(&mut short),
+        Err(LinalgError::Usage(_))
+    ));
+}
