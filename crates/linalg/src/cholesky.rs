@@ -17,7 +17,9 @@ use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
 use faer::{Conj, MatMut, Side};
 
 use crate::csr::{CsrMatrix, CsrPattern};
-use crate::direct::{check_finite, check_rhs_len, AnalysedPattern, DirectParams, DirectStats};
+use crate::direct::{
+    check_finite, check_probe, check_rhs_len, probe_rhs, AnalysedPattern, DirectParams, DirectStats,
+};
 use crate::ordering::{build_permutation, Permutation};
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
 
@@ -120,6 +122,19 @@ impl FaerCholesky {
     pub fn permutation(&self) -> Option<&Permutation> {
         self.state.as_ref().map(|s| &s.perm)
     }
+
+    /// `rhs := (LLᵀ)⁻¹ rhs` with the current factor.
+    fn apply_factor(&mut self, rhs: &mut [f64]) -> Result<(), LinalgError> {
+        let state = self.state.as_mut().ok_or_else(missing_factor)?;
+        let n = state.pattern.n();
+        LltRef::new(&state.symbolic, &self.l_values).solve_in_place_with_conj(
+            Conj::No,
+            MatMut::from_column_major_slice_mut(rhs, n, 1),
+            self.params.parallelism.to_faer(),
+            MemStack::new(&mut state.mem),
+        );
+        check_finite(rhs)
+    }
 }
 
 impl LinearSolver for FaerCholesky {
@@ -152,15 +167,21 @@ impl LinearSolver for FaerCholesky {
             Default::default(),
         );
         self.stats.n_factorizations += 1;
-        match result {
-            Ok(_) => {
-                self.factored = true;
-                Ok(())
-            }
-            Err(LltError::NonPositivePivot { index }) => Err(LinalgError::Singular {
+        if let Err(LltError::NonPositivePivot { index }) = result {
+            return Err(LinalgError::Singular {
                 pivot: state.perm.fwd.get(index).copied(),
-            }),
+            });
         }
+        // Probe solve: a positive but rounding-level pivot (a semi-definite matrix) gives a huge
+        // solution (see `check_probe`).
+        let b = probe_rhs(state.pattern.n());
+        let mut x = b.clone();
+        self.factored = true;
+        let probe = self
+            .apply_factor(&mut x)
+            .and_then(|()| check_probe(matrix, &b, &x));
+        self.factored = probe.is_ok();
+        probe
     }
 
     fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
@@ -168,16 +189,8 @@ impl LinearSolver for FaerCholesky {
         if !self.factored {
             return Err(missing_factor());
         }
-        let n = state.pattern.n();
-        check_rhs_len(n, rhs)?;
-        let llt = LltRef::new(&state.symbolic, &self.l_values);
-        llt.solve_in_place_with_conj(
-            Conj::No,
-            MatMut::from_column_major_slice_mut(rhs, n, 1),
-            self.params.parallelism.to_faer(),
-            MemStack::new(&mut state.mem),
-        );
-        check_finite(rhs)?;
+        check_rhs_len(state.pattern.n(), rhs)?;
+        self.apply_factor(rhs)?;
         Ok(SolveInfo {
             iterations: 0,
             residual: None,

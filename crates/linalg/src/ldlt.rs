@@ -5,7 +5,9 @@
 //!   supernode, so a fill-reducing ordering can leave a supernode without an acceptable pivot
 //!   (typical for saddle-point matrices with a zero block). faer reports no error then; the
 //!   breakdown is detected as non-finite numbers in a probe solve after factorisation and
-//!   returned as [`LinalgError::Singular`].
+//!   returned as [`LinalgError::Singular`] (so a nonsingular saddle-point matrix can be reported
+//!   singular; use `Signed` or the natural ordering for those). The probe also rejects
+//!   matrices singular to working precision (condition-number lower bound `>= 1/ε`).
 //! * [`LdltPivoting::Signed`]: `LDLᵀ` without pivoting, where each pivot must have a sign known
 //!   in advance (+ for, e.g., displacements, − for Lagrange multipliers or a negative definite
 //!   block). A pivot with the wrong sign or below `epsilon` in magnitude is replaced by
@@ -26,7 +28,9 @@ use crate::cholesky::{
     analyze_symmetric, faer_view, missing_analysis, missing_factor, SymbolicState, FAER_SIDE,
 };
 use crate::csr::{CsrMatrix, CsrPattern};
-use crate::direct::{check_finite, check_rhs_len, DirectParams, DirectStats};
+use crate::direct::{
+    check_finite, check_probe, check_rhs_len, probe_rhs, DirectParams, DirectStats,
+};
 use crate::ordering::Permutation;
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
 
@@ -279,9 +283,12 @@ impl LinearSolver for FaerLdlt {
             }
         }
         self.stats.n_factorizations += 1;
-        // Probe solve: a zero pivot leaves infinities or NaNs in the factor.
-        let mut probe = vec![1.0; n];
-        self.apply_factor(&mut probe)?;
+        // Probe solve: a zero pivot leaves infinities or NaNs in the factor, a rounding-level
+        // pivot a huge solution (see `check_probe`).
+        let b = probe_rhs(n);
+        let mut x = b.clone();
+        self.apply_factor(&mut x)?;
+        check_probe(matrix, &b, &x)?;
         self.factored = true;
         Ok(())
     }

@@ -25,7 +25,9 @@ use faer::sparse::{SparseColMatRef, SymbolicSparseColMatRef};
 use faer::{Conj, MatMut};
 
 use crate::csr::{CsrMatrix, CsrPattern};
-use crate::direct::{check_finite, check_rhs_len, AnalysedPattern, DirectParams, DirectStats};
+use crate::direct::{
+    check_finite, check_probe, check_rhs_len, probe_rhs, AnalysedPattern, DirectParams, DirectStats,
+};
 use crate::ordering::{build_permutation, Ordering, Permutation};
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
 
@@ -47,8 +49,9 @@ struct LuSymbolic {
 ///
 /// A zero pivot is detected by a probe solve after the numeric factorisation (faer's supernodal
 /// LU does not report numerically zero pivots, only structural rank deficiency; checked in
-/// faer 0.24.4, lu.rs) and returned as [`LinalgError::Singular`]. A tiny non-zero pivot is not
-/// detected.
+/// faer 0.24.4, lu.rs) and returned as [`LinalgError::Singular`]. The same probe rejects a
+/// matrix that is singular to working precision (a rounding-level pivot, as in a pure-Neumann
+/// Laplacian): its solution gives a condition-number lower bound of at least `1/ε`.
 ///
 /// Memory warning (design notes, section 4): faer's sparse LU ran out of memory on a 202k-DOF
 /// 3D elasticity matrix that Cholesky factors in 2.3 GiB. Prefer a symmetric formulation.
@@ -272,9 +275,12 @@ impl LinearSolver for FaerLu {
                 return Err(LinalgError::Backend(format!("numeric LU failed: {e:?}")));
             }
         }
-        // Probe solve: a zero pivot leaves infinities or NaNs in the factors (see type docs).
-        let mut probe = vec![1.0; n];
-        self.solve_with_factor(&mut probe)?;
+        // Probe solve: a zero pivot leaves infinities or NaNs in the factors, a rounding-level
+        // pivot a huge solution (see `check_probe`).
+        let b = probe_rhs(n);
+        let mut x = b.clone();
+        self.solve_with_factor(&mut x)?;
+        check_probe(matrix, &b, &x)?;
         self.factored = true;
         Ok(())
     }

@@ -219,19 +219,54 @@ fn cholesky_rejects_indefinite() {
 }
 
 #[test]
-fn pure_neumann_laplacian_is_detected_by_cholesky() {
-    // Positive semi-definite: in exact arithmetic the last pivot is 0. In floating point it is
-    // a rounding-level number of either sign; faer's LLᵀ reports a non-positive pivot only if it
-    // comes out <= 0. Observed with faer 0.24.4: every ordering here gives Singular (the
-    // assertion records that behaviour honestly; if a faer update changes it, this test says so).
+fn pure_neumann_laplacian_is_singular_for_every_direct_solver() {
+    // Positive semi-definite: in exact arithmetic the last pivot is 0, in floating point a
+    // rounding-level number of either sign. faer's LLᵀ flags it only if it comes out <= 0; faer's
+    // LU and LBLᵀ never flag it (observed with faer 0.24.4: solutions of size 1e16). The probe
+    // solve after factorisation (cond_∞ lower bound >= 1/ε) catches all of them.
     let a = neumann_laplacian_2d(8, 6);
     for ordering in ORDERINGS {
-        let mut s = FaerCholesky::new(DirectParams::with_ordering(ordering));
-        let r = analyze_factor(&mut s, &a);
-        assert!(
-            matches!(r, Err(LinalgError::Singular { .. })),
-            "{ordering:?}: {r:?}"
-        );
+        let params = DirectParams::with_ordering(ordering);
+        let mut solvers: Vec<Box<dyn LinearSolver>> = vec![
+            Box::new(FaerCholesky::new(params)),
+            Box::new(FaerLdlt::new(params)),
+            Box::new(FaerLu::new(params)),
+        ];
+        for s in solvers.iter_mut() {
+            let r = analyze_factor(s.as_mut(), &a);
+            assert!(
+                matches!(r, Err(LinalgError::Singular { .. })),
+                "{}: {r:?}",
+                s.name()
+            );
+        }
+    }
+}
+
+#[test]
+fn ill_conditioned_but_regular_is_accepted() {
+    // D A D with D from 1 down to 1e-4 on a 2D Laplacian: cond about 1e8 x cond(A) ~ 1e10,
+    // well below 1/ε ~ 4.5e15, so the singularity probe must not fire.
+    let a = laplacian_2d(10, 10);
+    let n = a.n_rows();
+    let d: Vec<f64> = (0..n)
+        .map(|i| 10f64.powf(-4.0 * i as f64 / (n - 1) as f64))
+        .collect();
+    let mut scaled = a.clone();
+    let p = a.pattern.clone();
+    for i in 0..n {
+        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+            scaled.values[k] *= d[i] * d[p.col_idx[k]];
+        }
+    }
+    let params = DirectParams::default();
+    let mut solvers: Vec<Box<dyn LinearSolver>> = vec![
+        Box::new(FaerCholesky::new(params)),
+        Box::new(FaerLdlt::new(params)),
+        Box::new(FaerLu::new(params)),
+    ];
+    for s in solvers.iter_mut() {
+        analyze_factor(s.as_mut(), &scaled).expect("regular matrix must factor");
     }
 }
 
