@@ -8,7 +8,9 @@ pub enum Parallelism {
     /// Run on the calling thread only.
     #[default]
     Sequential,
-    /// Use the global rayon pool with at most this many threads (0: the pool's size).
+    /// Use the global rayon pool. `threads` is the thread count handed to faer (0: the pool's
+    /// size); the Krylov matrix–vector product splits rows over the whole global pool unless
+    /// `threads == 1`. Results do not depend on the thread count for the Krylov solvers.
     Rayon { threads: usize },
 }
 
