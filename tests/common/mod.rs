@@ -86,11 +86,11 @@ pub fn solve(problem: &mut FieldProblem<'_>) -> Vec<f64> {
     let params = NewtonParams {
         abs_tol: 0.0,
         rel_tol: 1e-12,
-        step_tol: 1e-10,
+        step_tol: 1e-12,
         max_iterations: 5,
         max_backtracks: 0,
     };
     newton(problem, &mut solver, &mut x, &params)
-        .expect("linear problem solves in two Newton iterations");
+        .expect("a linear problem converges in one or two Newton iterations");
     x
 }

@@ -7,10 +7,22 @@ use dilata_mesh::CellKind;
 /// Chooses the quadrature degree for a cell kind.
 pub type DegreeRule = fn(CellKind) -> usize;
 
-/// Quadrature degree that integrates a stiffness (products of gradients) of a field of the
-/// cell's order exactly on affine cells, plus two for curved (isoparametric) cells and sources.
+/// "Full" integration: degree `2p` for a field of the cell's order `p` (Gauss with `p + 1`
+/// points per direction on quadrilaterals and hexahedra). Exact for stiffness terms on affine
+/// cells, and the usual choice for curved (isoparametric) cells, sources and the `1/r` terms
+/// of axisymmetry (common practice, no source).
 pub fn stiffness_degree(kind: CellKind) -> usize {
-    2 * kind.order() + 2
+    2 * kind.order()
+}
+
+/// Degree for a pure stiffness term (products of gradients, no source, no `1/r` term): zero on
+/// linear simplices, whose gradients are constant (affine cells: one point is exact), else
+/// [`stiffness_degree`].
+pub fn gradient_product_degree(kind: CellKind) -> usize {
+    match kind {
+        CellKind::Tri3 | CellKind::Tet4 | CellKind::Line2 => 0,
+        _ => stiffness_degree(kind),
+    }
 }
 
 /// CellValues keyed by cell kind, built lazily.

@@ -14,7 +14,7 @@ use dilata_fem::{
 };
 use dilata_material::elastic::{condense_plane_stress, Stiffness, Voigt};
 
-use crate::cellcache::{stiffness_degree, CellValuesCache};
+use crate::cellcache::{gradient_product_degree, stiffness_degree, CellValuesCache};
 use crate::poisson::facet_values;
 
 /// The stiffness a kernel should use in a geometry mode (plane stress condensed).
@@ -104,12 +104,13 @@ impl CellKernel for ElasticityKernel<'_> {
     type Error = InvertedCell;
 
     fn build_scratch(&self) -> ElasticityScratch {
+        let degree = if self.body_force.is_none() && self.mode != GeometryMode::Axisymmetric {
+            gradient_product_degree
+        } else {
+            stiffness_degree
+        };
         ElasticityScratch {
-            cache: CellValuesCache::new(
-                self.mode,
-                stiffness_degree,
-                vec![self.dofs.spec(self.field).order],
-            ),
+            cache: CellValuesCache::new(self.mode, degree, vec![self.dofs.spec(self.field).order]),
             u_local: Vec::with_capacity(81),
             cb: Vec::with_capacity(27),
         }

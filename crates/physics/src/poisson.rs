@@ -11,7 +11,7 @@ use dilata_fem::{
     LocalOutput,
 };
 
-use crate::cellcache::{stiffness_degree, CellValuesCache};
+use crate::cellcache::{gradient_product_degree, stiffness_degree, CellValuesCache};
 
 /// A source or flux density as a function of position.
 pub type ScalarFn<'a> = &'a (dyn Fn([f64; 3]) -> f64 + Sync);
@@ -32,11 +32,12 @@ impl CellKernel for PoissonKernel<'_> {
     type Error = InvertedCell;
 
     fn build_scratch(&self) -> CellValuesCache {
-        CellValuesCache::new(
-            self.mode,
-            stiffness_degree,
-            vec![self.dofs.spec(self.field).order],
-        )
+        let degree = if self.source.is_none() && self.mode != GeometryMode::Axisymmetric {
+            gradient_product_degree
+        } else {
+            stiffness_degree
+        };
+        CellValuesCache::new(self.mode, degree, vec![self.dofs.spec(self.field).order])
     }
 
     fn cell_into(

@@ -10,3 +10,9 @@ pub use newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
 pub mod problem;
 
 pub use problem::{BoundaryLoad, BulkLaw, FieldProblem};
+pub mod time;
+
+pub use time::{
+    AdaptiveParams, Integrator, IntegratorParams, Scheme, StepError, StepReport, StepSizing,
+    TransientSystem,
+};

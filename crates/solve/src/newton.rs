@@ -25,17 +25,20 @@ pub trait DiscreteSystem {
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), Self::Error>;
 }
 
-/// Newton parameters.
+/// Newton parameters. Converged when the residual (max norm) satisfies `|R| <= abs_tol` or
+/// `|R| <= rel_tol · |R_0|` (`R_0` the residual of the first guess after the prescribed values
+/// are imposed), or when a full Newton step was taken whose size is at most `step_tol · |x|`
+/// (max norms): near the solution Newton converges quadratically, so the remaining error is of
+/// the order of the square of that step. The step test matters when the first guess is already
+/// good (a time step from a predictor), where `R_0` is tiny and the relative test is out of
+/// reach of round-off.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct NewtonParams {
-    /// Converged when `|R| <= abs_tol` ...
     pub abs_tol: f64,
-    /// ... or `|R| <= rel_tol · |R_0|` (with `|R_0|` the first residual norm) ...
     pub rel_tol: f64,
-    /// ... and the correction satisfies `|δx| <= step_tol · (1 + |x|)` (both as max norms).
     pub step_tol: f64,
     pub max_iterations: usize,
-    /// Maximum number of step halvings in the backtracking line search (0 disables it).
+    /// Maximum number of step halvings in the backtracking line search (0: full steps).
     pub max_backtracks: usize,
 }
 
@@ -44,7 +47,7 @@ impl Default for NewtonParams {
         NewtonParams {
             abs_tol: 1e-10,
             rel_tol: 1e-10,
-            step_tol: 1e-10,
+            step_tol: 1e-12,
             max_iterations: 25,
             max_backtracks: 8,
         }
@@ -82,6 +85,11 @@ fn max_norm(v: &[f64]) -> f64 {
 
 /// Solve `R(x) = 0` starting from `x`. The solver must have been analysed on the system's pattern
 /// (its symbolic analysis is reused for every iteration).
+///
+/// Each iteration factors the Jacobian, solves for the correction and measures the residual at
+/// the new point (the line search's own evaluation); the Jacobian is assembled again only when
+/// another iteration is needed, so a linear problem costs one matrix assembly, one
+/// factorisation and two residual evaluations.
 pub fn newton<S: DiscreteSystem>(
     system: &mut S,
     solver: &mut dyn LinearSolver,
@@ -94,73 +102,70 @@ pub fn newton<S: DiscreteSystem>(
     let mut jac = CsrMatrix::zeros(system.pattern());
     let mut res = vec![0.0; n];
     let mut trial = vec![0.0; n];
+    let mut dx = vec![0.0; n];
     let mut info = NewtonInfo::default();
-    let mut r0 = None;
-    for it in 0..=params.max_iterations {
-        system
-            .assemble_into(x, &mut jac, &mut res)
-            .map_err(NewtonError::System)?;
-        let rn = max_norm(&res);
-        if !rn.is_finite() {
-            return Err(NewtonError::NonFinite { iteration: it });
-        }
-        info.residual_norms.push(rn);
-        let r0v = *r0.get_or_insert(rn);
-        let small_residual = rn <= params.abs_tol || rn <= params.rel_tol * r0v;
-        if it == params.max_iterations {
-            if small_residual {
-                return Ok(info);
-            }
-            return Err(NewtonError::NotConverged {
-                iterations: it,
-                residual: rn,
-            });
-        }
+    system
+        .assemble_into(x, &mut jac, &mut res)
+        .map_err(NewtonError::System)?;
+    let mut rn = max_norm(&res);
+    if !rn.is_finite() {
+        return Err(NewtonError::NonFinite { iteration: 0 });
+    }
+    info.residual_norms.push(rn);
+    let r0 = rn;
+    if rn <= params.abs_tol {
+        return Ok(info);
+    }
+    for it in 1..=params.max_iterations {
         solver.factor(&jac)?;
-        let mut dx: Vec<f64> = res.iter().map(|r| -r).collect();
+        for (d, r) in dx.iter_mut().zip(&res) {
+            *d = -r;
+        }
         solver.solve_in_place(&mut dx)?;
         let dn = max_norm(&dx);
         if !dn.is_finite() {
             return Err(NewtonError::NonFinite { iteration: it });
         }
-        // Backtracking on the residual norm.
+        // Backtracking on the residual norm (Armijo-type sufficient decrease).
         let mut alpha = 1.0;
-        let mut accepted = false;
+        let mut accepted = None;
         for k in 0..=params.max_backtracks {
             for i in 0..n {
                 trial[i] = x[i] + alpha * dx[i];
-            }
-            if params.max_backtracks == 0 {
-                accepted = true;
-                break;
             }
             system
                 .residual_into(&trial, &mut res)
                 .map_err(NewtonError::System)?;
             let tn = max_norm(&res);
-            if tn.is_finite() && (tn <= (1.0 - 1e-4 * alpha) * rn || tn <= params.abs_tol) {
-                accepted = true;
+            let last = k == params.max_backtracks;
+            if tn.is_finite() && (tn <= (1.0 - 1e-4 * alpha) * rn || tn <= params.abs_tol || last) {
+                accepted = Some(tn);
                 info.backtracks += k;
                 break;
             }
             alpha *= 0.5;
         }
-        if !accepted {
-            // Take the full step anyway; convergence is judged by the next residual.
-            for i in 0..n {
-                trial[i] = x[i] + dx[i];
-            }
+        let tn = accepted.expect("the last backtrack is always taken");
+        let full_step = alpha == 1.0;
+        if !tn.is_finite() {
+            return Err(NewtonError::NonFinite { iteration: it });
         }
         x.copy_from_slice(&trial);
-        info.iterations = it + 1;
-        let xn = max_norm(x);
-        if small_residual && dn <= params.step_tol * (1.0 + xn) {
-            system
-                .residual_into(x, &mut res)
-                .map_err(NewtonError::System)?;
-            info.residual_norms.push(max_norm(&res));
+        rn = tn;
+        info.iterations = it;
+        info.residual_norms.push(rn);
+        let small_step = full_step && dn <= params.step_tol * max_norm(x);
+        if rn <= params.abs_tol || rn <= params.rel_tol * r0 || small_step {
             return Ok(info);
         }
+        if it < params.max_iterations {
+            system
+                .assemble_into(x, &mut jac, &mut res)
+                .map_err(NewtonError::System)?;
+        }
     }
-    unreachable!("loop returns")
+    Err(NewtonError::NotConverged {
+        iterations: params.max_iterations,
+        residual: rn,
+    })
 }

@@ -1,0 +1,332 @@
+//! Implicit time integration with adaptive steps: backward Euler and variable-step BDF2.
+//!
+//! Generic over a [`TransientSystem`]: a discrete system whose residual uses the rate
+//! approximation `ẋ ≈ a0 · x + h` handed to it by [`TransientSystem::begin_step`] (the
+//! integrator owns the history; the system decides which unknowns carry a rate).
+//!
+//! Rate coefficients for a step `Δt_n` after a step `Δt_{n−1}`, with `ω = Δt_n / Δt_{n−1}`
+//! (variable-step BDF2; Hairer & Wanner, Solving Ordinary Differential Equations II, section
+//! III.5, from memory; re-derived here from the quadratic through the three points):
+//!   `ẋ_{n+1} ≈ [(1+2ω)/(1+ω) x_{n+1} − (1+ω) x_n + ω²/(1+ω) x_{n−1}] / Δt_n`.
+//! Backward Euler: `ẋ_{n+1} ≈ (x_{n+1} − x_n)/Δt_n`.
+//!
+//! Local error estimate (predictor–corrector difference, "Milne's device"; Gresho & Sani,
+//! Incompressible Flow and the Finite Element Method, 2000, section 3.16, from memory): with a
+//! predictor extrapolating the last k+1 solutions (k the order),
+//!   `LTE ≈ Δt_n / (t_{n+1} − t_{n−k}) · (x_{n+1} − x_pred)`,
+//! measured in the weighted RMS norm `sqrt(mean((e_i / (atol + rtol |x_i|))²))` over the
+//! unknowns the system marks as dynamic. A step is accepted when that norm is at most 1; the next
+//! step is `Δt · safety · norm^(−1/(k+1))`, limited by the growth and shrink bounds.
+
+use crate::newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
+use dilata_linalg::LinearSolver;
+
+/// A discrete system with a time derivative.
+pub trait TransientSystem: DiscreteSystem {
+    /// Prepare the step ending at `t_new`: the residual must use `ẋ ≈ a0 · x + history` for
+    /// the unknowns that carry a rate (and update time-dependent boundary values to `t_new`).
+    fn begin_step(&mut self, t_new: f64, a0: f64, history: &[f64]);
+    /// Whether unknown `i` carries a rate and enters the error estimate. Default: all.
+    fn is_dynamic(&self, i: usize) -> bool {
+        let _ = i;
+        true
+    }
+}
+
+/// Time-stepping scheme.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Scheme {
+    /// First order, L-stable.
+    BackwardEuler,
+    /// Second order, variable step; the first step is taken with backward Euler.
+    Bdf2,
+}
+
+impl Scheme {
+    pub fn order(self) -> usize {
+        match self {
+            Scheme::BackwardEuler => 1,
+            Scheme::Bdf2 => 2,
+        }
+    }
+}
+
+/// How the step size is chosen.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum StepSizing {
+    /// Constant step (still cut after a failed Newton solve).
+    Fixed { dt: f64 },
+    /// Adaptive from the local error estimate.
+    Adaptive(AdaptiveParams),
+}
+
+/// Parameters of adaptive step control.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct AdaptiveParams {
+    pub dt_initial: f64,
+    pub dt_min: f64,
+    pub dt_max: f64,
+    /// Relative tolerance of the local error.
+    pub rtol: f64,
+    /// Absolute tolerance of the local error (units of the unknowns).
+    pub atol: f64,
+    /// Safety factor applied to the predicted step (0.8–0.9 usual).
+    pub safety: f64,
+    /// Largest growth factor of one step to the next.
+    pub max_growth: f64,
+}
+
+/// Parameters of the integrator.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct IntegratorParams {
+    pub scheme: Scheme,
+    pub sizing: StepSizing,
+    pub newton: NewtonParams,
+    /// Factor by which a step is cut after a failure (Newton, system error, error estimate).
+    pub cut_factor: f64,
+    /// Smallest step allowed; a step that must be cut below it stops the run.
+    pub dt_min: f64,
+}
+
+/// The integrator's state; cloneable so a caller can checkpoint it.
+#[derive(Clone, Debug, PartialEq)]
+pub struct IntegratorState {
+    pub t: f64,
+    pub x: Vec<f64>,
+    /// Earlier solutions, newest first, with the times they belong to.
+    pub past: Vec<(f64, Vec<f64>)>,
+    /// Step size proposed for the next step.
+    pub dt_next: f64,
+    pub n_accepted: usize,
+    pub n_rejected: usize,
+}
+
+/// What one accepted step did.
+#[derive(Clone, Debug, PartialEq)]
+pub struct StepReport {
+    pub t: f64,
+    pub dt: f64,
+    pub newton: NewtonInfo,
+    /// Weighted local error norm (None when not estimated).
+    pub error: Option<f64>,
+    /// Rejected attempts before this step was accepted, with their causes.
+    pub rejections: Vec<String>,
+}
+
+/// Why the integrator stopped.
+#[derive(Debug, thiserror::Error)]
+pub enum StepError {
+    #[error(
+        "step size {dt:e} at t = {t:e} is below the minimum {dt_min:e}; last failure: {cause}"
+    )]
+    StepTooSmall {
+        t: f64,
+        dt: f64,
+        dt_min: f64,
+        cause: String,
+    },
+}
+
+/// Implicit integrator over a [`TransientSystem`].
+pub struct Integrator {
+    pub params: IntegratorParams,
+    pub state: IntegratorState,
+}
+
+impl Integrator {
+    /// Start at time `t0` from `x0`.
+    pub fn new(params: IntegratorParams, t0: f64, x0: Vec<f64>) -> Self {
+        let dt = match params.sizing {
+            StepSizing::Fixed { dt } => dt,
+            StepSizing::Adaptive(a) => a.dt_initial,
+        };
+        assert!(dt > 0.0 && dt.is_finite(), "initial step must be positive");
+        Integrator {
+            params,
+            state: IntegratorState {
+                t: t0,
+                x: x0,
+                past: Vec::new(),
+                dt_next: dt,
+                n_accepted: 0,
+                n_rejected: 0,
+            },
+        }
+    }
+
+    /// Take one accepted step, ending no later than `t_stop` (hit exactly when it is within
+    /// reach). On failure the state is left at the last accepted step.
+    pub fn step<S: TransientSystem>(
+        &mut self,
+        system: &mut S,
+        solver: &mut dyn LinearSolver,
+        t_stop: f64,
+    ) -> Result<StepReport, StepError> {
+        let mut dt = self.state.dt_next;
+        let mut rejections = Vec::new();
+        let n = self.state.x.len();
+        let mut history = vec![0.0; n];
+        loop {
+            // Land exactly on t_stop; avoid a sliver step just before it.
+            let remaining = t_stop - self.state.t;
+            if dt >= remaining || remaining - dt < 1e-3 * dt {
+                dt = remaining;
+            }
+            let dt_min = match self.params.sizing {
+                StepSizing::Adaptive(a) => a.dt_min.max(self.params.dt_min),
+                StepSizing::Fixed { .. } => self.params.dt_min,
+            };
+            if dt < dt_min && dt < remaining {
+                return Err(StepError::StepTooSmall {
+                    t: self.state.t,
+                    dt,
+                    dt_min,
+                    cause: rejections.last().cloned().unwrap_or_default(),
+                });
+            }
+            let t_new = self.state.t + dt;
+            let order = self.effective_order();
+            let a0 = self.rate_coefficients_into(dt, order, &mut history);
+            system.begin_step(t_new, a0, &history);
+            let mut x = self.predict(dt, order);
+            let attempt = newton(system, solver, &mut x, &self.params.newton);
+            let info = match attempt {
+                Ok(info) => info,
+                Err(e) => {
+                    rejections.push(describe(&e));
+                    self.state.n_rejected += 1;
+                    dt *= self.params.cut_factor;
+                    continue;
+                }
+            };
+            // Error estimate and step proposal.
+            let (error, dt_next) = match self.params.sizing {
+                StepSizing::Fixed { dt: fixed } => (None, fixed),
+                StepSizing::Adaptive(a) => match self.error_norm(system, &x, dt, order, &a) {
+                    None => (None, (dt * a.max_growth.min(1.5)).min(a.dt_max)),
+                    Some(err) => {
+                        let k = order as f64;
+                        let factor = (a.safety * err.max(1e-10).powf(-1.0 / (k + 1.0)))
+                            .clamp(0.2, a.max_growth);
+                        if err > 1.0 {
+                            rejections.push(format!("local error {err:.3} above tolerance"));
+                            self.state.n_rejected += 1;
+                            dt = (dt * factor.min(0.9)).max(0.0);
+                            continue;
+                        }
+                        (Some(err), (dt * factor).min(a.dt_max))
+                    }
+                },
+            };
+            // Accept.
+            let old_t = self.state.t;
+            let old_x = std::mem::replace(&mut self.state.x, x);
+            self.state.past.insert(0, (old_t, old_x));
+            self.state.past.truncate(2);
+            self.state.t = t_new;
+            self.state.dt_next = dt_next;
+            self.state.n_accepted += 1;
+            return Ok(StepReport {
+                t: t_new,
+                dt,
+                newton: info,
+                error,
+                rejections,
+            });
+        }
+    }
+
+    /// Order used for the next step (BDF2 falls back to first order until it has history).
+    fn effective_order(&self) -> usize {
+        match self.params.scheme {
+            Scheme::BackwardEuler => 1,
+            Scheme::Bdf2 if !self.state.past.is_empty() => 2,
+            Scheme::Bdf2 => 1,
+        }
+    }
+
+    /// Fill `history` with `h` and return `a0` so that `ẋ ≈ a0 x + h`.
+    fn rate_coefficients_into(&self, dt: f64, order: usize, history: &mut [f64]) -> f64 {
+        let x_n = &self.state.x;
+        if order == 1 {
+            for (h, &xn) in history.iter_mut().zip(x_n) {
+                *h = -xn / dt;
+            }
+            return 1.0 / dt;
+        }
+        let (t_prev, x_prev) = &self.state.past[0];
+        let dt_prev = self.state.t - t_prev;
+        let w = dt / dt_prev;
+        let a0 = (1.0 + 2.0 * w) / ((1.0 + w) * dt);
+        let a1 = -(1.0 + w) / dt;
+        let a2 = w * w / ((1.0 + w) * dt);
+        for i in 0..history.len() {
+            history[i] = a1 * x_n[i] + a2 * x_prev[i];
+        }
+        a0
+    }
+
+    /// Polynomial extrapolation of order `order` through the last solutions (the current one if
+    /// there is no history).
+    fn predict(&self, dt: f64, order: usize) -> Vec<f64> {
+        let t1 = self.state.t + dt;
+        let mut pts: Vec<(f64, &[f64])> = vec![(self.state.t, &self.state.x)];
+        for (t, x) in self.state.past.iter().take(order) {
+            pts.push((*t, x));
+        }
+        lagrange_extrapolate(&pts, t1)
+    }
+
+    /// Weighted local error norm, or None when there is not enough history for a predictor.
+    fn error_norm<S: TransientSystem>(
+        &self,
+        system: &S,
+        x: &[f64],
+        dt: f64,
+        order: usize,
+        a: &AdaptiveParams,
+    ) -> Option<f64> {
+        if self.state.past.len() < order {
+            return None;
+        }
+        let pred = self.predict(dt, order);
+        let t_first = self.state.past[order - 1].0;
+        let factor = dt / (self.state.t + dt - t_first);
+        let mut sum = 0.0;
+        let mut count = 0usize;
+        for i in 0..x.len() {
+            if system.is_dynamic(i) {
+                let e = factor * (x[i] - pred[i]) / (a.atol + a.rtol * x[i].abs());
+                sum += e * e;
+                count += 1;
+            }
+        }
+        Some(if count == 0 {
+            0.0
+        } else {
+            (sum / count as f64).sqrt()
+        })
+    }
+}
+
+fn describe<E: std::error::Error>(e: &NewtonError<E>) -> String {
+    e.to_string()
+}
+
+/// Value at `t` of the polynomial through the points `(t_k, x_k)` (Lagrange form).
+fn lagrange_extrapolate(pts: &[(f64, &[f64])], t: f64) -> Vec<f64> {
+    let n = pts[0].1.len();
+    let mut out = vec![0.0; n];
+    for (j, (tj, xj)) in pts.iter().enumerate() {
+        let mut l = 1.0;
+        for (m, (tm, _)) in pts.iter().enumerate() {
+            if m != j {
+                l *= (t - tm) / (tj - tm);
+            }
+        }
+        for i in 0..n {
+            out[i] += l * xj[i];
+        }
+    }
+    out
+}

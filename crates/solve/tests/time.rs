@@ -1,0 +1,235 @@
+//! Time integrators on a linear test ODE with a known solution.
+//! Test problem (constructed, exact solution by substitution; common practice, no source):
+//!   ẋ = −λ (x − sin t) + cos t,  x(0) = 1  ⇒  x(t) = sin t + e^{−λ t}.
+//! Expected orders: backward Euler 1, BDF2 2 (Hairer & Wanner, Solving ODEs II, ch. III; from
+//! memory).
+
+use std::sync::Arc;
+
+use dilata_linalg::{CsrMatrix, CsrPattern, DirectParams, FaerLu, LinearSolver, Ordering};
+use dilata_solve::newton::{DiscreteSystem, NewtonParams};
+use dilata_solve::time::{
+    AdaptiveParams, Integrator, IntegratorParams, Scheme, StepError, StepSizing, TransientSystem,
+};
+
+#[derive(Debug, thiserror::Error)]
+#[error("refused: step too large ({0:e})")]
+struct Refused(f64);
+
+/// Uncoupled copies of the test equation with different λ.
+struct Decay {
+    lambdas: Vec<f64>,
+    pattern: Arc<CsrPattern>,
+    t: f64,
+    a0: f64,
+    history: Vec<f64>,
+    /// Refuse (as a recoverable error) steps longer than this.
+    max_dt: f64,
+    last_t: f64,
+}
+
+impl Decay {
+    fn new(lambdas: Vec<f64>) -> Self {
+        let n = lambdas.len();
+        let pattern = Arc::new(CsrPattern::from_rows(n, (0..n).map(|i| vec![i]).collect()));
+        Decay {
+            lambdas,
+            pattern,
+            t: 0.0,
+            a0: 0.0,
+            history: vec![0.0; n],
+            max_dt: f64::INFINITY,
+            last_t: 0.0,
+        }
+    }
+    fn exact(&self, t: f64) -> Vec<f64> {
+        self.lambdas
+            .iter()
+            .map(|l| t.sin() + (-l * t).exp())
+            .collect()
+    }
+    fn residual(&self, x: &[f64], r: &mut [f64]) -> Result<(), Refused> {
+        if self.t - self.last_t > self.max_dt {
+            return Err(Refused(self.t - self.last_t));
+        }
+        for i in 0..x.len() {
+            let l = self.lambdas[i];
+            let rate = self.a0 * x[i] + self.history[i];
+            r[i] = rate + l * (x[i] - self.t.sin()) - self.t.cos();
+        }
+        Ok(())
+    }
+}
+
+impl DiscreteSystem for Decay {
+    type Error = Refused;
+    fn n_dofs(&self) -> usize {
+        self.lambdas.len()
+    }
+    fn pattern(&self) -> Arc<CsrPattern> {
+        self.pattern.clone()
+    }
+    fn impose_constraints(&self, _x: &mut [f64]) {}
+    fn assemble_into(
+        &mut self,
+        x: &[f64],
+        j: &mut CsrMatrix,
+        r: &mut [f64],
+    ) -> Result<(), Refused> {
+        for i in 0..x.len() {
+            j.values[i] = self.a0 + self.lambdas[i];
+        }
+        self.residual(x, r)
+    }
+    fn residual_into(&mut self, x: &[f64], r: &mut [f64]) -> Result<(), Refused> {
+        self.residual(x, r)
+    }
+}
+
+impl TransientSystem for Decay {
+    fn begin_step(&mut self, t_new: f64, a0: f64, history: &[f64]) {
+        self.t = t_new;
+        self.a0 = a0;
+        self.history.copy_from_slice(history);
+    }
+}
+
+fn newton_params() -> NewtonParams {
+    NewtonParams {
+        abs_tol: 1e-13,
+        rel_tol: 1e-12,
+        step_tol: 1e-12,
+        max_iterations: 6,
+        max_backtracks: 0,
+    }
+}
+
+fn solver_for(sys: &Decay) -> FaerLu {
+    let mut s = FaerLu::new(DirectParams::with_ordering(Ordering::Natural));
+    s.analyze(&sys.pattern).unwrap();
+    s
+}
+
+fn integrate(
+    scheme: Scheme,
+    sizing: StepSizing,
+    t_end: f64,
+    sys: &mut Decay,
+) -> (Integrator, Vec<f64>) {
+    let mut solver = solver_for(sys);
+    let params = IntegratorParams {
+        scheme,
+        sizing,
+        newton: newton_params(),
+        cut_factor: 0.25,
+        dt_min: 1e-9,
+    };
+    let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
+    while integ.state.t < t_end {
+        sys.last_t = integ.state.t;
+        integ.step(sys, &mut solver, t_end).unwrap();
+    }
+    let err: Vec<f64> = integ
+        .state
+        .x
+        .iter()
+        .zip(sys.exact(t_end))
+        .map(|(a, b)| (a - b).abs())
+        .collect();
+    (integ, err)
+}
+
+fn observed_order(scheme: Scheme) -> f64 {
+    let mut errors = Vec::new();
+    for n in [40, 80, 160] {
+        let mut sys = Decay::new(vec![2.0, 0.5]);
+        let (integ, err) = integrate(
+            scheme,
+            StepSizing::Fixed { dt: 1.0 / n as f64 },
+            1.0,
+            &mut sys,
+        );
+        assert_eq!(integ.state.t, 1.0, "end time hit exactly");
+        assert_eq!(integ.state.n_accepted, n);
+        errors.push(err.iter().cloned().fold(0.0, f64::max));
+    }
+    (errors[1] / errors[2]).log2()
+}
+
+#[test]
+fn backward_euler_is_first_order() {
+    let p = observed_order(Scheme::BackwardEuler);
+    assert!((p - 1.0).abs() < 0.1, "order {p}");
+}
+
+#[test]
+fn bdf2_is_second_order() {
+    let p = observed_order(Scheme::Bdf2);
+    assert!((p - 2.0).abs() < 0.1, "order {p}");
+}
+
+#[test]
+fn adaptive_steps_meet_tolerance_and_hit_the_end_time() {
+    for scheme in [Scheme::BackwardEuler, Scheme::Bdf2] {
+        let mut sys = Decay::new(vec![20.0, 1.0]);
+        let a = AdaptiveParams {
+            dt_initial: 1e-4,
+            dt_min: 1e-9,
+            dt_max: 0.5,
+            rtol: 1e-4,
+            atol: 1e-6,
+            safety: 0.9,
+            max_growth: 2.0,
+        };
+        let (integ, err) = integrate(scheme, StepSizing::Adaptive(a), 2.0, &mut sys);
+        let worst = err.iter().cloned().fold(0.0, f64::max);
+        eprintln!(
+            "{scheme:?}: {} accepted, {} rejected, error {worst:e}",
+            integ.state.n_accepted, integ.state.n_rejected
+        );
+        assert_eq!(integ.state.t, 2.0);
+        // Global error is a modest multiple of the local tolerance.
+        assert!(worst < 1e-2, "{scheme:?} error {worst:e}");
+        // Step sizes adapt: far fewer steps than the initial step would need.
+        assert!(
+            integ.state.n_accepted < 2000,
+            "{scheme:?}: {} steps",
+            integ.state.n_accepted
+        );
+    }
+}
+
+#[test]
+fn failed_steps_are_cut_and_retried_then_stop_below_minimum() {
+    // The system refuses steps longer than 0.03: fixed 0.1 steps must be cut to 0.025.
+    let mut sys = Decay::new(vec![1.0]);
+    sys.max_dt = 0.03;
+    let mut solver = solver_for(&sys);
+    let params = IntegratorParams {
+        scheme: Scheme::BackwardEuler,
+        sizing: StepSizing::Fixed { dt: 0.1 },
+        newton: newton_params(),
+        cut_factor: 0.25,
+        dt_min: 1e-3,
+    };
+    let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
+    sys.last_t = 0.0;
+    let report = integ.step(&mut sys, &mut solver, 1.0).unwrap();
+    assert!((report.dt - 0.025).abs() < 1e-15);
+    assert_eq!(report.rejections.len(), 1);
+    assert!(
+        report.rejections[0].contains("refused"),
+        "{:?}",
+        report.rejections
+    );
+    // A system that refuses everything: the run stops with the cause and the state unchanged.
+    sys.max_dt = 0.0;
+    sys.last_t = integ.state.t;
+    let before = integ.state.clone();
+    match integ.step(&mut sys, &mut solver, 1.0) {
+        Err(StepError::StepTooSmall { cause, .. }) => assert!(cause.contains("refused"), "{cause}"),
+        other => panic!("expected StepTooSmall, got {other:?}"),
+    }
+    assert_eq!(integ.state.x, before.x);
+    assert_eq!(integ.state.t, before.t);
+}
