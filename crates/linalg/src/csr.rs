@@ -25,7 +25,12 @@ impl CsrPattern {
             col_idx.extend_from_slice(&r);
             row_ptr.push(col_idx.len());
         }
-        CsrPattern { n_rows: row_ptr.len() - 1, n_cols, row_ptr, col_idx }
+        CsrPattern {
+            n_rows: row_ptr.len() - 1,
+            n_cols,
+            row_ptr,
+            col_idx,
+        }
     }
 
     pub fn nnz(&self) -> usize {
@@ -61,7 +66,10 @@ impl CsrMatrix {
     /// A zero matrix on `pattern`.
     pub fn zeros(pattern: Arc<CsrPattern>) -> Self {
         let nnz = pattern.nnz();
-        CsrMatrix { pattern, values: vec![0.0; nnz] }
+        CsrMatrix {
+            pattern,
+            values: vec![0.0; nnz],
+        }
     }
 
     pub fn n_rows(&self) -> usize {
@@ -121,6 +129,11 @@ impl CsrMatrix {
     /// Copy into an `sprs` matrix (interchange with other sparse tools).
     pub fn to_sprs(&self) -> sprs::CsMat<f64> {
         let p = &self.pattern;
-        sprs::CsMat::new((p.n_rows, p.n_cols), p.row_ptr.clone(), p.col_idx.clone(), self.values.clone())
+        sprs::CsMat::new(
+            (p.n_rows, p.n_cols),
+            p.row_ptr.clone(),
+            p.col_idx.clone(),
+            self.values.clone(),
+        )
     }
 }
