@@ -79,8 +79,13 @@ pub trait FacetKernel {
 }
 
 /// What an assembly pass writes: a matrix on the assembler's pattern and/or a vector, with
-/// optional constraints and the values they prescribe (in constraint-slot order; for a Newton
-/// correction these are the increments).
+/// optional constraints and the values they prescribe (in constraint-slot order).
+///
+/// The vector is treated as the right-hand side `f` of `K x = f`: known columns move to it as
+/// `f_i −= K_ij g_j` and constrained rows become `d x_i = d g_i`. A caller that assembles a
+/// residual `R` and solves `J δ = −R` must therefore pass the *negated* prescribed increments
+/// `−δ_j` (or, as the problems in `dilata-solve` do, impose the values on the state first and
+/// pass zeros).
 pub struct AssemblyTarget<'a> {
     pub matrix: Option<&'a mut CsrMatrix>,
     pub vector: Option<&'a mut [f64]>,

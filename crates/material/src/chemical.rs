@@ -11,7 +11,7 @@
 //!   `ψ = μ0 c + RT c_max (θ ln θ + (1−θ) ln(1−θ)) + Ω_int c_max θ(1−θ)`, defined for
 //!   `0 < c < c_max`.
 //!
-//! Both forms as in the conventions of `references.md` (dilute: Sofronis & McMeeking, J. Mech.
+//! Both forms follow the conventions of docs/theory.md (dilute: Sofronis & McMeeking, J. Mech.
 //! Phys. Solids 37 (1989) 317; lattice gas: Larché & Cahn, Acta Metall. 33 (1985) 331; both
 //! from memory). The regular-solution term is the textbook one (Porter & Easterling, Phase
 //! Transformations in Metals and Alloys, ch. 1; from memory). Outside its range a law returns a

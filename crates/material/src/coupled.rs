@@ -3,8 +3,8 @@
 //! needs and the energies.
 //!
 //! Free energy per unit volume `ψ(ε, c) = ψ_chem(c) + ½(ε − ε_c(c)):C(c):(ε − ε_c(c))`
-//! (design.md §1, stress-assisted diffusion), local potential `μ_local = ∂ψ/∂c =
-//! μ_chem + μ_mech`, flux `J = −M(c) grad μ`. In the weak form of design.md §1 the potential
+//! (docs/theory.md, coupled model), local potential `μ_local = ∂ψ/∂c =
+//! μ_chem + μ_mech`, flux `J = −M(c) grad μ`. In the weak form of docs/theory.md the potential
 //! equation enforces `μ = μ_local` and the mass equation uses `−J`.
 //!
 //! ```

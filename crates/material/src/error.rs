@@ -1,4 +1,4 @@
-//! The two kinds of failure a pointwise law can report (design.md, habit 7).
+//! The two kinds of failure a pointwise law can report (DEVELOPERS.md, error handling).
 //!
 //! * [`ParameterError`]: bad data, returned by the checked constructors. A law that was built
 //!   successfully has admissible parameters.

@@ -9,7 +9,7 @@
 //! * constant tensor.
 //!
 //! With the matching chemical law these give Fick's law `J = −D grad c` under uniform stress
-//! (references.md conventions; the dilute case as in Sofronis & McMeeking, J. Mech. Phys.
+//! (docs/theory.md conventions; the dilute case as in Sofronis & McMeeking, J. Mech. Phys.
 //! Solids 37 (1989) 317, from memory). `D` is isotropic or an anisotropic tensor.
 
 use nalgebra::Matrix3;
@@ -241,7 +241,7 @@ mod tests {
 
     /// Fick's law from the chemical potential: with `M = D c/RT` and the dilute μ,
     /// `−M grad μ = −D grad c`; with the lattice-gas mobility and the ideal lattice gas
-    /// (Ω_int = 0) the same (references.md conventions). Here `grad μ = (dμ/dc) grad c`, no stress.
+    /// (Ω_int = 0) the same (docs/theory.md conventions). Here `grad μ = (dμ/dc) grad c`, no stress.
     #[test]
     fn flux_reduces_to_fick_without_stress() {
         let grad_c = Vector3::new(3.0e5, -1.0e5, 2.0e4);

@@ -5,7 +5,7 @@
 //! * linear in Young's modulus: `E(c) = E0 + (E1 − E0) c/c_max` with ν constant, so
 //!   `C(c) = E(c) Ĉ(ν)` with `Ĉ` the isotropic stiffness for unit Young's modulus. This is the
 //!   simplest model of a host that softens (or stiffens) on insertion, as reported for silicon
-//!   (Sethuraman et al., 2010, from memory; references.md).
+//!   (Sethuraman et al., 2010, from memory).
 //!
 //! Units: stiffness in Pa, `dC/dc` in Pa·m³/mol, concentration in mol/m³.
 
@@ -169,7 +169,7 @@ mod tests {
     use crate::elastic::Isotropic;
 
     fn softening() -> StiffnessLaw {
-        // Silicon-like softening from ~70 to ~35 GPa (references.md, order of magnitude only).
+        // Silicon-like softening from ~70 to ~35 GPa (order of magnitude only, from memory).
         StiffnessLaw::linear_young(LinearYoungParams {
             young_at_zero: 70e9,
             young_at_max: 35e9,

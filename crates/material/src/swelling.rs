@@ -4,7 +4,7 @@
 //! Swelling strain, linear in `c`, in Voigt form `[xx, yy, zz, xy, yz, xz]` with engineering
 //! shears (as in [`crate::elastic`]):
 //! * isotropic (Vegard): `ε_c = (Ω/3)(c − c_ref) I`, so that the volume change is
-//!   `tr ε_c = Ω (c − c_ref)` (references.md convention: Ω is the partial molar volume, *not*
+//!   `tr ε_c = Ω (c − c_ref)` (the convention of docs/theory.md: Ω is the partial molar volume, *not*
 //!   the linear coefficient);
 //! * tensor: `ε_c = β (c − c_ref)` for any expansion tensor β per unit concentration (this also
 //!   covers an in-plane-only misfit with `β_zz = 0`).
@@ -13,7 +13,7 @@
 //! stiffness `C(c)`, the stored energy `W = ½ e:C:e` gives
 //! * `σ = ∂W/∂ε = C e`,
 //! * `μ_mech = ∂W/∂c = −σ : dε_c/dc + ½ e:(dC/dc):e` (for isotropic swelling and constant
-//!   stiffness `μ_mech = −Ω σ_h`, tension positive, `σ_h = tr σ/3`; references.md),
+//!   stiffness `μ_mech = −Ω σ_h`, tension positive, `σ_h = tr σ/3`),
 //! * `dσ/dε = C`, `dσ/dc = (dC/dc) e − C β`, `dμ_mech/dε = (dσ/dc)ᵀ`,
 //!   `dμ_mech/dc = βᵀCβ − 2 βᵀ(dC/dc) e + ½ e:(d²C/dc²):e` with `β = dε_c/dc`.
 //!
@@ -206,7 +206,7 @@ mod tests {
     }
 
     /// Vegard swelling: ε_c = (Ω/3)Δc on the diagonal, no shear, volume change Ω Δc
-    /// (references.md convention).
+    /// (docs/theory.md convention).
     #[test]
     fn isotropic_swelling_strain() {
         let s = isotropic_swelling().evaluate(C_REF + 1.0e3);
@@ -218,7 +218,7 @@ mod tests {
     }
 
     /// μ_mech = −Ω σ_h for isotropic swelling and constant stiffness, at any strain; its sign:
-    /// tension (σ_h > 0) lowers the potential, so solute is drawn to tension (references.md;
+    /// tension (σ_h > 0) lowers the potential, so solute is drawn to tension (docs/theory.md;
     /// Sofronis & McMeeking 1989, from memory).
     #[test]
     fn mechanical_potential_is_minus_omega_hydrostatic() {

@@ -13,7 +13,7 @@ use dilata_material::stiffness::{LinearYoungParams, StiffnessLaw};
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw, TensorSwellingParams};
 use nalgebra::{Matrix3, Vector3};
 
-// Demo-scale numbers of a manganese-oxide-like host (references.md, order of magnitude only).
+// Demo-scale numbers of a manganese-oxide-like host (order of magnitude only, from memory).
 const T: f64 = 298.15;
 const C_MAX: f64 = 2.37e4;
 const OMEGA: f64 = 3.5e-6;
@@ -146,8 +146,8 @@ fn plane_stress(law: &CoupledPointLaw) -> CoupledPointLaw {
 /// Every tangent block of `evaluate` against central differences of its outputs, and the
 /// stress and local potential against central differences of the total free energy, for both
 /// chemical laws, isotropic and tensor swelling, constant and concentration-dependent
-/// stiffness, concentration-dependent and constant mobility, 3D and plane stress (design.md
-/// habit 10; common practice, no source).
+/// stiffness, concentration-dependent and constant mobility, 3D and plane stress (DEVELOPERS.md,
+/// adding a law; common practice, no source).
 #[test]
 fn every_tangent_block_matches_central_differences() {
     let chems = [Chem::Dilute, Chem::Lattice];
@@ -321,7 +321,7 @@ fn strain_for_stress(law: &CoupledPointLaw, stress: &Voigt, c: f64) -> Voigt {
 }
 
 /// With M = D c/RT and the dilute μ (and with the lattice-gas mobility and ideal lattice gas),
-/// `−M grad μ = −D grad c` when the stress is uniform (references.md conventions). The
+/// `−M grad μ = −D grad c` when the stress is uniform (docs/theory.md conventions). The
 /// concentration varies linearly in space, the strain is chosen point by point so that the
 /// stress is the same everywhere, and grad μ is the central difference of the law's own μ_local.
 #[test]
