@@ -53,9 +53,9 @@ struct LuSymbolic {
 /// matrix that is singular to working precision (a rounding-level pivot, as in a pure-Neumann
 /// Laplacian): its solution gives a condition-number lower bound of at least `1/ε`.
 ///
-/// The matrix is equilibrated before factorisation: rows scaled by `r_i = 1/max_j |a_ij|`, then
-/// columns by `c_j = 1/max_i |r_i a_ij|` (the row-then-column scaling of LAPACK's xGEEQU; LAPACK
-/// Users' Guide, 3rd ed., sec. 2.4.1, from memory), and `(R A C) y = R b`, `x = C y` is solved.
+/// The matrix is equilibrated before factorisation, `(R A C) y = R b`, `x = C y`, with diagonal
+/// `R` and `C` from Ruiz's iteration (every row and column of `R A C` ends with largest entry
+/// close to one; see `equilibrate_into`).
 /// Coupled problems mix equations whose entries differ by twenty orders of magnitude (stress
 /// rows in pascals, mass rows in mol/s); without scaling, partial pivoting picks pivots by units
 /// rather than by merit and the probe below would see a huge but meaningless "condition".
@@ -339,45 +339,61 @@ impl LinearSolver for FaerLu {
     }
 }
 
-/// Row-then-column equilibration of `a` (see [`FaerLu`]); a zero row or column is singular.
+/// Equilibration of `a` (see [`FaerLu`]): Ruiz's iteration, which divides every row and
+/// column by the square root of its largest scaled entry until all of them are close to one
+/// (D. Ruiz, "A scaling algorithm to equilibrate both rows and columns norms in matrices",
+/// RAL-TR-2001-034, 2001; from memory). A zero row or column is singular.
 fn equilibrate_into(
     a: &CsrMatrix,
     row_scale: &mut Vec<f64>,
     col_scale: &mut Vec<f64>,
     scaled: &mut Vec<f64>,
 ) -> Result<(), LinalgError> {
+    const MAX_SWEEPS: usize = 30;
+    const TOLERANCE: f64 = 0.05;
     let p = a.pattern.as_ref();
     let n = p.n_rows;
     row_scale.clear();
-    row_scale.resize(n, 0.0);
+    row_scale.resize(n, 1.0);
     col_scale.clear();
-    col_scale.resize(p.n_cols, 0.0);
+    col_scale.resize(p.n_cols, 1.0);
     scaled.clear();
     scaled.extend_from_slice(&a.values);
-    for i in 0..n {
-        let m = a.values[p.row_ptr[i]..p.row_ptr[i + 1]]
-            .iter()
-            .fold(0.0f64, |m, v| m.max(v.abs()));
-        if m == 0.0 || !m.is_finite() {
+    let mut row_max = vec![0.0f64; n];
+    let mut col_max = vec![0.0f64; p.n_cols];
+    for sweep in 0..MAX_SWEEPS {
+        row_max.iter_mut().for_each(|m| *m = 0.0);
+        col_max.iter_mut().for_each(|m| *m = 0.0);
+        for i in 0..n {
+            for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+                let v = scaled[k].abs();
+                row_max[i] = row_max[i].max(v);
+                col_max[p.col_idx[k]] = col_max[p.col_idx[k]].max(v);
+            }
+        }
+        if let Some(i) = row_max.iter().position(|&m| m == 0.0 || !m.is_finite()) {
             return Err(LinalgError::Singular { pivot: Some(i) });
         }
-        row_scale[i] = 1.0 / m;
-    }
-    for i in 0..n {
-        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
-            let j = p.col_idx[k];
-            col_scale[j] = col_scale[j].max((a.values[k] * row_scale[i]).abs());
-        }
-    }
-    for (j, c) in col_scale.iter_mut().enumerate() {
-        if *c == 0.0 {
+        if let Some(j) = col_max.iter().position(|&m| m == 0.0 || !m.is_finite()) {
             return Err(LinalgError::Singular { pivot: Some(j) });
         }
-        *c = 1.0 / *c;
-    }
-    for i in 0..n {
-        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
-            scaled[k] = row_scale[i] * a.values[k] * col_scale[p.col_idx[k]];
+        let off = row_max
+            .iter()
+            .chain(&col_max)
+            .fold(0.0f64, |m, &v| m.max((1.0 - v).abs()));
+        if off <= TOLERANCE && sweep > 0 {
+            break;
+        }
+        for (r, m) in row_scale.iter_mut().zip(&row_max) {
+            *r /= m.sqrt();
+        }
+        for (c, m) in col_scale.iter_mut().zip(&col_max) {
+            *c /= m.sqrt();
+        }
+        for i in 0..n {
+            for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+                scaled[k] = row_scale[i] * a.values[k] * col_scale[p.col_idx[k]];
+            }
         }
     }
     Ok(())

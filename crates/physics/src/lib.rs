@@ -5,6 +5,7 @@
 //! `dilata-fem` kernel traits; they see one cell at a time and never global data.
 
 pub mod cellcache;
+pub mod coupled;
 pub mod elasticity;
 pub mod norms;
 pub mod poisson;

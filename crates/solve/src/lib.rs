@@ -4,6 +4,7 @@
 //! trait; they never see physics types. Newton's method with line search lives here; time
 //! integration and loading programs join it as the coupled problems arrive.
 
+pub mod coupled;
 pub mod newton;
 
 pub use newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};

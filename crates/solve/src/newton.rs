@@ -28,13 +28,21 @@ pub trait DiscreteSystem {
     fn blocks(&self) -> Vec<std::ops::Range<usize>> {
         std::iter::once(0..self.n_dofs()).collect()
     }
+    /// For each block, a magnitude of its unknowns (in their units) that the step test uses as
+    /// a floor: a correction is negligible when it is below `step_tol · max(|x_b|, scale_b)`.
+    /// It matters for blocks whose exact solution is zero (a clamped displacement field).
+    /// Default: no floor.
+    fn block_scales(&self) -> Vec<f64> {
+        vec![0.0; self.blocks().len()]
+    }
 }
 
 /// Newton parameters. Converged when, for every block of unknowns (see
 /// [`DiscreteSystem::blocks`]), the residual (max norm over the block) satisfies
 /// `|R| <= abs_tol` or `|R| <= rel_tol · |R_0|` (`R_0` that block's residual at the first guess
 /// after the prescribed values are imposed), or a full Newton step was taken whose size over the
-/// block is at most `step_tol · |x|` (max norms): near the solution Newton converges quadratically, so the remaining error is of
+/// block is at most `step_tol · max(|x|, scale)` (max norms; `scale` from
+/// [`DiscreteSystem::block_scales`]): near the solution Newton converges quadratically, so the remaining error is of
 /// the order of the square of that step. The step test matters when the first guess is already
 /// good (a time step from a predictor), where `R_0` is tiny and the relative test is out of
 /// reach of round-off.
@@ -119,6 +127,8 @@ pub fn newton<S: DiscreteSystem>(
     }
     info.residual_norms.push(rn);
     let blocks = system.blocks();
+    let scales = system.block_scales();
+    assert_eq!(scales.len(), blocks.len(), "one scale per block");
     let r0: Vec<f64> = blocks.iter().map(|b| max_norm(&res[b.clone()])).collect();
     if rn <= params.abs_tol {
         return Ok(info);
@@ -180,10 +190,10 @@ pub fn newton<S: DiscreteSystem>(
         rn = tn;
         info.iterations = it;
         info.residual_norms.push(rn);
-        let converged = blocks.iter().zip(&r0).all(|(b, &r0b)| {
+        let converged = blocks.iter().zip(&r0).zip(&scales).all(|((b, &r0b), &s)| {
             let rb = max_norm(&res[b.clone()]);
-            let small_step =
-                full_step && max_norm(&dx[b.clone()]) <= params.step_tol * max_norm(&x[b.clone()]);
+            let small_step = full_step
+                && max_norm(&dx[b.clone()]) <= params.step_tol * max_norm(&x[b.clone()]).max(s);
             rb <= params.abs_tol || rb <= params.rel_tol * r0b || small_step
         });
         if converged {

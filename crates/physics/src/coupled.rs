@@ -1,0 +1,226 @@
+//! The coupled small-strain deformation–diffusion kernel with displacement `u`, concentration
+//! `c` and chemical potential `μ` as fields (the mixed formulation of docs/theory.md):
+//!
+//! * momentum:  `R_u,a = ∫ B_aᵀ σ(ε, c) dV`
+//! * mass:      `R_c,a = ∫ N_a (ċ − s) dV − ∫ grad N_a · J dV`, `J = −M(c) grad μ`
+//! * potential: `R_μ,a = ∫ N_a (μ − μ_local(ε, c)) dV`
+//!
+//! with the rate `ċ ≈ a0 c + h` supplied by the time integrator. The point law (stress, local
+//! potential, flux and all their derivatives) comes from `dilata_material::coupled`; a
+//! concentration outside the law's range is returned as a recoverable error naming the cell.
+//! Boundary terms (tractions, inward species flux) are separate facet kernels.
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::{CellInput, CellKernel, FieldHandle, GeometryMode, InvertedCell, LocalOutput};
+use dilata_material::coupled::{CoupledPointLaw, PointInput};
+use dilata_material::elastic::Voigt;
+use dilata_material::error::RangeError;
+use nalgebra::Vector3;
+
+use crate::cellcache::{stiffness_degree, CellValuesCache};
+use crate::elasticity::{node_b, strain_at};
+use crate::poisson::ScalarFn;
+
+/// Handles of the three fields of the coupled problem.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct CoupledFields {
+    pub u: FieldHandle,
+    pub c: FieldHandle,
+    pub mu: FieldHandle,
+}
+
+/// Rate approximation `ċ ≈ a0 · c + history` at the current step.
+#[derive(Clone, Copy, Debug)]
+pub struct RateTerm<'a> {
+    pub a0: f64,
+    /// Global vector; only its concentration entries are read.
+    pub history: &'a [f64],
+}
+
+/// Why a coupled cell could not be evaluated (both recoverable by cutting the step).
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+pub enum CoupledError {
+    #[error(transparent)]
+    Inverted(#[from] InvertedCell),
+    #[error("cell {cell}, quadrature point {point}: {source}")]
+    Range {
+        cell: usize,
+        point: usize,
+        #[source]
+        source: RangeError,
+    },
+}
+
+/// Cell kernel of the coupled problem.
+pub struct CoupledKernel<'a> {
+    pub dofs: &'a DofMap,
+    pub fields: CoupledFields,
+    pub mode: GeometryMode,
+    pub law: &'a CoupledPointLaw,
+    pub rate: RateTerm<'a>,
+    /// Volumetric source `s` in mol/(m³ s).
+    pub source: Option<ScalarFn<'a>>,
+    pub solution: &'a [f64],
+}
+
+/// Scratch of the coupled kernel.
+pub struct CoupledScratch {
+    cache: CellValuesCache,
+    u: Vec<f64>,
+    c: Vec<f64>,
+    c_rate: Vec<f64>,
+    mu: Vec<f64>,
+}
+
+impl CellKernel for CoupledKernel<'_> {
+    type Scratch = CoupledScratch;
+    type Error = CoupledError;
+
+    fn build_scratch(&self) -> CoupledScratch {
+        let orders = [self.fields.u, self.fields.c, self.fields.mu]
+            .iter()
+            .map(|&f| self.dofs.spec(f).order)
+            .collect();
+        CoupledScratch {
+            cache: CellValuesCache::new(self.mode, stiffness_degree, orders),
+            u: Vec::new(),
+            c: Vec::new(),
+            c_rate: Vec::new(),
+            mu: Vec::new(),
+        }
+    }
+
+    fn cell_into(
+        &self,
+        input: &CellInput<'_>,
+        s: &mut CoupledScratch,
+        out: LocalOutput<'_>,
+    ) -> Result<(), CoupledError> {
+        let cv = s.cache.get(input.kind);
+        cv.reinit(input.id, input.coords)?;
+        let nc = self.dofs.spec(self.fields.u).n_components;
+        let ru = self.dofs.local_range(self.fields.u, input.kind);
+        let rc = self.dofs.local_range(self.fields.c, input.kind);
+        let rm = self.dofs.local_range(self.fields.mu, input.kind);
+        let gather =
+            |range: std::ops::Range<usize>, into: &mut Vec<f64>, f: &dyn Fn(usize) -> f64| {
+                into.clear();
+                into.extend(input.dofs[range].iter().map(|&d| f(d)));
+            };
+        gather(ru.clone(), &mut s.u, &|d| self.solution[d]);
+        gather(rc.clone(), &mut s.c, &|d| self.solution[d]);
+        gather(rc.clone(), &mut s.c_rate, &|d| {
+            self.rate.a0 * self.solution[d] + self.rate.history[d]
+        });
+        gather(rm.clone(), &mut s.mu, &|d| self.solution[d]);
+        let n_loc = input.dofs.len();
+        let (su, sc, sm) = (&cv.spaces[0], &cv.spaces[1], &cv.spaces[2]);
+        let (nu, ncn, nmn) = (su.n_nodes(), sc.n_nodes(), sm.n_nodes());
+        let LocalOutput {
+            mut matrix,
+            mut vector,
+        } = out;
+        for q in 0..cv.n_points() {
+            let w = cv.jxw[q];
+            let r = cv.points[q][0];
+            let (gu, vu) = (su.grads(q), su.values(q));
+            let (gc, vc) = (sc.grads(q), sc.values(q));
+            let (gm, vm) = (sm.grads(q), sm.values(q));
+            let strain: Voigt = strain_at(self.mode, gu, vu, r, &s.u, nc);
+            let c: f64 = (0..ncn).map(|a| vc[a] * s.c[a]).sum();
+            let c_dot: f64 = (0..ncn).map(|a| vc[a] * s.c_rate[a]).sum();
+            let mu: f64 = (0..nmn).map(|a| vm[a] * s.mu[a]).sum();
+            let mut grad_mu = Vector3::zeros();
+            for a in 0..nmn {
+                for d in 0..3 {
+                    grad_mu[d] += gm[a][d] * s.mu[a];
+                }
+            }
+            let p = self
+                .law
+                .evaluate(&PointInput { strain, c, grad_mu })
+                .map_err(|source| CoupledError::Range {
+                    cell: input.id,
+                    point: q,
+                    source,
+                })?;
+            if let Some(fe) = vector.as_deref_mut() {
+                for a in 0..nu {
+                    let ba = node_b(self.mode, gu[a], vu[a], r);
+                    for i in 0..nc {
+                        let v: f64 = (0..6).map(|k| ba[k][i] * p.stress[k]).sum();
+                        fe[ru.start + a * nc + i] += v * w;
+                    }
+                }
+                let src = self.source.map_or(0.0, |f| f(cv.points[q]));
+                for a in 0..ncn {
+                    let gj = gc[a][0] * p.flux[0] + gc[a][1] * p.flux[1] + gc[a][2] * p.flux[2];
+                    fe[rc.start + a] += (vc[a] * (c_dot - src) - gj) * w;
+                }
+                for a in 0..nmn {
+                    fe[rm.start + a] += vm[a] * (mu - p.mu_local) * w;
+                }
+            }
+            if let Some(ke) = matrix.as_deref_mut() {
+                let at = |row: usize, col: usize| row * n_loc + col;
+                // Momentum rows.
+                for a in 0..nu {
+                    let ba = node_b(self.mode, gu[a], vu[a], r);
+                    for i in 0..nc {
+                        let row = ru.start + a * nc + i;
+                        // (Bᵀ C)_a,i as a Voigt row.
+                        let mut bc = [0.0; 6];
+                        for l in 0..6 {
+                            bc[l] = (0..6).map(|k| ba[k][i] * p.dstress_dstrain[(k, l)]).sum();
+                        }
+                        for b in 0..nu {
+                            let bb = node_b(self.mode, gu[b], vu[b], r);
+                            for j in 0..nc {
+                                let v: f64 = (0..6).map(|l| bc[l] * bb[l][j]).sum();
+                                ke[at(row, ru.start + b * nc + j)] += v * w;
+                            }
+                        }
+                        let bdc: f64 = (0..6).map(|k| ba[k][i] * p.dstress_dc[k]).sum();
+                        for b in 0..ncn {
+                            ke[at(row, rc.start + b)] += bdc * vc[b] * w;
+                        }
+                    }
+                }
+                // Mass rows.
+                for a in 0..ncn {
+                    let row = rc.start + a;
+                    let g = Vector3::new(gc[a][0], gc[a][1], gc[a][2]);
+                    let gdj_dc = g.dot(&p.dflux_dc);
+                    for b in 0..ncn {
+                        ke[at(row, rc.start + b)] +=
+                            (vc[a] * self.rate.a0 * vc[b] - gdj_dc * vc[b]) * w;
+                    }
+                    // −grad N_a · dJ/d(grad μ) · grad N_b
+                    let gm_t = p.dflux_dgrad_mu.transpose() * g;
+                    for b in 0..nmn {
+                        let v = -(gm_t[0] * gm[b][0] + gm_t[1] * gm[b][1] + gm_t[2] * gm[b][2]);
+                        ke[at(row, rm.start + b)] += v * w;
+                    }
+                }
+                // Potential rows.
+                for a in 0..nmn {
+                    let row = rm.start + a;
+                    for b in 0..nu {
+                        let bb = node_b(self.mode, gu[b], vu[b], r);
+                        for j in 0..nc {
+                            let v: f64 = (0..6).map(|k| p.dmu_dstrain[k] * bb[k][j]).sum();
+                            ke[at(row, ru.start + b * nc + j)] -= vm[a] * v * w;
+                        }
+                    }
+                    for b in 0..ncn {
+                        ke[at(row, rc.start + b)] -= vm[a] * p.dmu_dc * vc[b] * w;
+                    }
+                    for b in 0..nmn {
+                        ke[at(row, rm.start + b)] += vm[a] * vm[b] * w;
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+}

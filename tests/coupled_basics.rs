@@ -1,0 +1,517 @@
+//! First checks of the coupled deformation–diffusion kernel and problem (work in progress on
+//! the coupled-model issue): consistent tangent against finite differences, the swelling patch
+//! states, and the discrete mass balance.
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::{BoundaryTarget, CellInput, CellKernel, FieldSpec, GeometryMode, LocalOutput};
+use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
+use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams, LatticeGasParams};
+use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
+use dilata_material::elastic::Isotropic;
+use dilata_material::mobility::{
+    Diffusivity, DiluteMobilityParams, LatticeGasMobilityParams, MobilityLaw,
+};
+use dilata_material::stiffness::StiffnessLaw;
+use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
+use dilata_mesh::{CellKind, Mesh};
+use dilata_physics::coupled::{CoupledFields, CoupledKernel, RateTerm};
+use dilata_solve::coupled::CoupledProblem;
+use dilata_solve::newton::NewtonParams;
+use dilata_solve::time::{Integrator, IntegratorParams, Scheme, StepSizing};
+use dilata_solve::BoundaryLoad;
+
+// Demo-scale material numbers of an insertion host (order of magnitude only, mostly
+// from memory): E 10 GPa, ν 0.3, Ω 3.5e-6 m³/mol, D 7e-15 m²/s, c_max 2.37e4 mol/m³.
+const E: f64 = 10e9;
+const NU: f64 = 0.3;
+const OMEGA: f64 = 3.5e-6;
+const D: f64 = 7e-15;
+const T: f64 = 298.15;
+const C0: f64 = 1000.0;
+const C_MAX: f64 = 2.37e4;
+
+fn dilute_law(plane_stress: bool) -> CoupledPointLaw {
+    let mut stiffness = StiffnessLaw::isotropic(Isotropic::new(E, NU).unwrap());
+    if plane_stress {
+        stiffness = stiffness.plane_stress();
+    }
+    CoupledPointLaw::new(CoupledLawParts {
+        stiffness,
+        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
+            partial_molar_volume: OMEGA,
+            c_ref: C0,
+        })
+        .unwrap(),
+        chemical: ChemicalLaw::ideal_dilute(IdealDiluteParams {
+            mu0: 0.0,
+            temperature: T,
+            c_ref: C0,
+        })
+        .unwrap(),
+        mobility: MobilityLaw::dilute(DiluteMobilityParams {
+            diffusivity: Diffusivity::isotropic(D).unwrap(),
+            temperature: T,
+        })
+        .unwrap(),
+    })
+    .unwrap()
+}
+
+fn lattice_law() -> CoupledPointLaw {
+    CoupledPointLaw::new(CoupledLawParts {
+        stiffness: StiffnessLaw::isotropic(Isotropic::new(E, NU).unwrap()),
+        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
+            partial_molar_volume: OMEGA,
+            c_ref: C0,
+        })
+        .unwrap(),
+        chemical: ChemicalLaw::lattice_gas(LatticeGasParams {
+            mu0: 0.0,
+            temperature: T,
+            c_max: C_MAX,
+            interaction: 4000.0,
+        })
+        .unwrap(),
+        mobility: MobilityLaw::lattice_gas(LatticeGasMobilityParams {
+            diffusivity: Diffusivity::isotropic(D).unwrap(),
+            temperature: T,
+            c_max: C_MAX,
+        })
+        .unwrap(),
+    })
+    .unwrap()
+}
+
+fn coupled_dofs(mesh: &Mesh, u_order: usize) -> (DofMap, CoupledFields) {
+    let dofs = DofMap::build(
+        mesh,
+        &[
+            FieldSpec::vector("u", mesh.dim, u_order),
+            FieldSpec::scalar("c", 1),
+            FieldSpec::scalar("mu", 1),
+        ],
+    )
+    .unwrap();
+    let fields = CoupledFields {
+        u: dofs.field("u").unwrap(),
+        c: dofs.field("c").unwrap(),
+        mu: dofs.field("mu").unwrap(),
+    };
+    (dofs, fields)
+}
+
+/// Every tangent block of the cell kernel equals central differences of its residual
+/// (common practice, no source: the consistent-tangent check described in DEVELOPERS.md).
+#[test]
+fn coupled_tangent_matches_finite_differences() {
+    let cases: Vec<(Mesh, GeometryMode, CoupledPointLaw)> = vec![
+        (
+            cuboid(&BoxParams {
+                origin: [0.0; 3],
+                lengths: [1e-6; 3],
+                n_cells: [1, 1, 1],
+                kind: CellKind::Hex20,
+            })
+            .unwrap(),
+            GeometryMode::ThreeD,
+            dilute_law(false),
+        ),
+        (
+            cuboid(&BoxParams {
+                origin: [0.0; 3],
+                lengths: [1e-6; 3],
+                n_cells: [1, 1, 1],
+                kind: CellKind::Tet10,
+            })
+            .unwrap(),
+            GeometryMode::ThreeD,
+            lattice_law(),
+        ),
+        (
+            rectangle(&RectangleParams {
+                origin: [0.0, 0.0],
+                lengths: [1e-6, 1e-6],
+                n_cells: [1, 1],
+                kind: CellKind::Quad8,
+            })
+            .unwrap(),
+            GeometryMode::PlaneStrain,
+            lattice_law(),
+        ),
+        (
+            rectangle(&RectangleParams {
+                origin: [0.0, 0.0],
+                lengths: [1e-6, 1e-6],
+                n_cells: [1, 1],
+                kind: CellKind::Tri6,
+            })
+            .unwrap(),
+            GeometryMode::PlaneStress,
+            dilute_law(true),
+        ),
+        (
+            rectangle(&RectangleParams {
+                origin: [0.5e-6, 0.0],
+                lengths: [1e-6, 1e-6],
+                n_cells: [1, 1],
+                kind: CellKind::Quad9,
+            })
+            .unwrap(),
+            GeometryMode::Axisymmetric,
+            dilute_law(false),
+        ),
+    ];
+    for (mesh, mode, law) in &cases {
+        let (dofs, fields) = coupled_dofs(mesh, 2);
+        let n = dofs.n_dofs();
+        // A smooth non-trivial state: displacements ~1e-9 m, c around C0 (varying ±20 %),
+        // μ ~ 1e3 J/mol with gradients.
+        let mut x = vec![0.0; n];
+        for node in 0..mesh.n_points() {
+            let p = mesh.points[node];
+            let (sx, sy, sz) = (p[0] / 1e-6, p[1] / 1e-6, p[2] / 1e-6);
+            for comp in 0..mesh.dim {
+                x[dofs.node_dof(fields.u, node, comp).unwrap()] =
+                    1e-9 * ((comp as f64 + 1.0) * sx - 0.7 * sy + 0.3 * sz * sx);
+            }
+            if let Ok(d) = dofs.node_dof(fields.c, node, 0) {
+                x[d] = C0 * (1.0 + 0.2 * (sx - 0.5 * sy + 0.3 * sz));
+            }
+            if let Ok(d) = dofs.node_dof(fields.mu, node, 0) {
+                x[d] = 1e3 * (0.3 + sx * sy - sz);
+            }
+        }
+        let history: Vec<f64> = (0..n).map(|i| -((i % 7) as f64) * 1e2).collect();
+        let kernel = CoupledKernel {
+            dofs: &dofs,
+            fields,
+            mode: *mode,
+            law,
+            rate: RateTerm {
+                a0: 1e2,
+                history: &history,
+            },
+            source: None,
+            solution: &x,
+        };
+        let (kind, nodes) = mesh.cell(0);
+        let coords: Vec<[f64; 3]> = nodes.iter().map(|&i| mesh.points[i]).collect();
+        let cd = dofs.cell_dofs(0).to_vec();
+        let m = cd.len();
+        let mut scratch = kernel.build_scratch();
+        let mut ke = vec![0.0; m * m];
+        let mut fe = vec![0.0; m];
+        let input = CellInput {
+            id: 0,
+            kind,
+            nodes,
+            coords: &coords,
+            dofs: &cd,
+        };
+        kernel
+            .cell_into(
+                &input,
+                &mut scratch,
+                LocalOutput {
+                    matrix: Some(&mut ke),
+                    vector: Some(&mut fe),
+                },
+            )
+            .unwrap();
+        // Central differences column by column; step relative to the unknown's scale.
+        let scale = |d: usize| {
+            if dofs.field_range(fields.u).contains(&d) {
+                1e-9
+            } else if dofs.field_range(fields.c).contains(&d) {
+                C0
+            } else {
+                1e3
+            }
+        };
+        let mut worst: f64 = 0.0;
+        let mut at = (0, 0, 0.0, 0.0);
+        for b in 0..m {
+            let h = 1e-6 * scale(cd[b]);
+            let eval = |delta: f64| {
+                let mut xp = x.clone();
+                xp[cd[b]] += delta;
+                let k = CoupledKernel {
+                    dofs: &dofs,
+                    fields,
+                    mode: *mode,
+                    law,
+                    rate: RateTerm {
+                        a0: 1e2,
+                        history: &history,
+                    },
+                    source: None,
+                    solution: &xp,
+                };
+                let mut s = k.build_scratch();
+                let mut f = vec![0.0; m];
+                k.cell_into(
+                    &input,
+                    &mut s,
+                    LocalOutput {
+                        matrix: None,
+                        vector: Some(&mut f),
+                    },
+                )
+                .unwrap();
+                f
+            };
+            let (fp, fm) = (eval(h), eval(-h));
+            for a in 0..m {
+                let fd = (fp[a] - fm[a]) / (2.0 * h);
+                // Compare sensitivities to a relative change of each unknown: entries scaled by
+                // their column's unknown scale, relative to the largest scaled entry of the row
+                // (fields carry different units, so raw entries are not comparable).
+                let row_scale = (0..m)
+                    .map(|bb| (ke[a * m + bb] * scale(cd[bb])).abs())
+                    .fold(0.0, f64::max)
+                    .max(1e-300);
+                let e = (ke[a * m + b] - fd).abs() * scale(cd[b]) / row_scale;
+                if e > worst {
+                    worst = e;
+                    at = (a, b, ke[a * m + b], fd);
+                }
+            }
+        }
+        assert!(
+            worst < 1e-6,
+            "{kind} {mode:?}: tangent differs from finite differences by {worst:e} at (row, column, tangent, difference) {at:?}"
+        );
+    }
+}
+
+/// Run one backward-Euler step of a coupled problem from a uniform state.
+fn one_step(problem: &mut CoupledProblem<'_>, x0: Vec<f64>, dt: f64) -> Vec<f64> {
+    let mut solver = FaerLu::new(DirectParams::with_ordering(Ordering::Amd));
+    solver.analyze(problem.assembler.pattern()).unwrap();
+    let params = IntegratorParams {
+        scheme: Scheme::BackwardEuler,
+        sizing: StepSizing::Fixed { dt },
+        newton: NewtonParams {
+            abs_tol: 0.0,
+            rel_tol: 1e-12,
+            step_tol: 1e-12,
+            max_iterations: 12,
+            max_backtracks: 4,
+        },
+        cut_factor: 0.5,
+        dt_min: dt * 1e-3,
+    };
+    let mut integ = Integrator::new(params, 0.0, x0);
+    integ.step(problem, &mut solver, dt).unwrap();
+    integ.state.x
+}
+
+fn uniform_state(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, c: f64) -> Vec<f64> {
+    let mut x = vec![0.0; dofs.n_dofs()];
+    for node in dofs.field_nodes(fields.c) {
+        x[dofs.node_dof(fields.c, node, 0).unwrap()] = c;
+    }
+    let _ = mesh;
+    x
+}
+
+/// A uniform concentration change in a body free to expand gives zero stress and the strain
+/// (Ω/3)Δc I; fully clamped it gives σ = −E Ω Δc / (3(1 − 2ν)) I (elementary thermoelasticity
+/// with αΔT replaced by ΩΔc/3; common practice, no source).
+#[test]
+fn uniform_swelling_free_and_clamped() {
+    let dc = 500.0;
+    let mesh = cuboid(&BoxParams {
+        origin: [0.0; 3],
+        lengths: [2e-6, 1e-6, 1e-6],
+        n_cells: [3, 2, 2],
+        kind: CellKind::Hex20,
+    })
+    .unwrap();
+    for clamped in [false, true] {
+        let (dofs, fields) = coupled_dofs(&mesh, 2);
+        let mut problem = CoupledProblem::new(
+            &mesh,
+            dofs,
+            fields,
+            GeometryMode::ThreeD,
+            dilute_law(false),
+            Parallelism::Sequential,
+        );
+        let supports: Vec<(&str, usize)> = if clamped {
+            ["left", "right", "bottom", "top", "back", "front"]
+                .iter()
+                .flat_map(|&b| (0..3).map(move |c| (b, c)))
+                .collect()
+        } else {
+            vec![("left", 0), ("bottom", 1), ("back", 2)]
+        };
+        for (b, comp) in supports {
+            problem
+                .constraints
+                .add_boundary(
+                    &mesh,
+                    &problem.dofs,
+                    BoundaryTarget {
+                        boundary: b,
+                        field: fields.u,
+                        component: comp,
+                    },
+                    0.0,
+                )
+                .unwrap();
+        }
+        let x0 = uniform_state(&mesh, &problem.dofs, fields, C0 + dc);
+        let x = one_step(&mut problem, x0, 10.0);
+        let eps = OMEGA * dc / 3.0;
+        for node in 0..mesh.n_points() {
+            let p = mesh.points[node];
+            for comp in 0..3 {
+                let u = x[problem.dofs.node_dof(fields.u, node, comp).unwrap()];
+                let expect = if clamped { 0.0 } else { eps * p[comp] };
+                assert!(
+                    (u - expect).abs() <= 1e-10 * eps * 2e-6,
+                    "clamped={clamped} node {node} comp {comp}: u {u:e}, expected {expect:e}"
+                );
+            }
+            if let Ok(d) = problem.dofs.node_dof(fields.c, node, 0) {
+                assert!((x[d] - (C0 + dc)).abs() <= 1e-9 * C0, "c changed: {}", x[d]);
+            }
+        }
+        // The potential is uniform and equals μ_chem − Ω σ_h.
+        let sigma_h = if clamped {
+            -E * OMEGA * dc / (3.0 * (1.0 - 2.0 * NU))
+        } else {
+            0.0
+        };
+        let mu_expect = 8.314462618 * T * ((C0 + dc) / C0).ln() - OMEGA * sigma_h;
+        for node in problem.dofs.field_nodes(fields.mu) {
+            let mu = x[problem.dofs.node_dof(fields.mu, node, 0).unwrap()];
+            assert!(
+                (mu - mu_expect).abs() <= 1e-8 * mu_expect.abs(),
+                "clamped={clamped}: μ {mu}, expected {mu_expect}"
+            );
+        }
+    }
+}
+
+/// Discrete mass balance: with backward Euler the change of the total amount over a step equals
+/// Δt times the integrated inward flux, because the test functions of the mass equation sum to
+/// one (common practice, no source). Checked to 1e-10 relative over several steps.
+#[test]
+fn mass_balance_with_inward_flux() {
+    let mesh = rectangle(&RectangleParams {
+        origin: [0.0, 0.0],
+        lengths: [2e-6, 1e-6],
+        n_cells: [8, 4],
+        kind: CellKind::Quad8,
+    })
+    .unwrap();
+    let (dofs, fields) = coupled_dofs(&mesh, 2);
+    let mut problem = CoupledProblem::new(
+        &mesh,
+        dofs,
+        fields,
+        GeometryMode::PlaneStrain,
+        dilute_law(false),
+        Parallelism::Sequential,
+    );
+    problem
+        .constraints
+        .add_boundary(
+            &mesh,
+            &problem.dofs,
+            BoundaryTarget {
+                boundary: "left",
+                field: fields.u,
+                component: 0,
+            },
+            0.0,
+        )
+        .unwrap();
+    problem
+        .constraints
+        .add_boundary(
+            &mesh,
+            &problem.dofs,
+            BoundaryTarget {
+                boundary: "bottom",
+                field: fields.u,
+                component: 1,
+            },
+            0.0,
+        )
+        .unwrap();
+    let j = 1e-5; // mol/(m² s), into the body through the right edge
+    problem.loads.push((
+        mesh.boundary("right").unwrap().to_vec(),
+        BoundaryLoad::Flux(Box::new(move |_| j)),
+    ));
+    let area_rate = j * 1e-6; // flux × edge length (per unit thickness)
+    let total = |x: &[f64], problem: &CoupledProblem<'_>| amount(&mesh, &problem.dofs, fields, x);
+    let mut x = uniform_state(&mesh, &problem.dofs, fields, C0);
+    let dt = 0.05;
+    let mut solver = FaerLu::new(DirectParams::with_ordering(Ordering::Amd));
+    solver.analyze(problem.assembler.pattern()).unwrap();
+    let params = IntegratorParams {
+        scheme: Scheme::BackwardEuler,
+        sizing: StepSizing::Fixed { dt },
+        newton: NewtonParams {
+            abs_tol: 0.0,
+            rel_tol: 1e-13,
+            step_tol: 1e-13,
+            max_iterations: 15,
+            max_backtracks: 4,
+        },
+        cut_factor: 0.5,
+        dt_min: 1e-6,
+    };
+    let mut integ = Integrator::new(params, 0.0, x.clone());
+    let m0 = total(&x, &problem);
+    for step in 1..=4 {
+        let before = total(&integ.state.x, &problem);
+        let report = integ.step(&mut problem, &mut solver, 1.0).unwrap();
+        assert!(
+            report.rejections.is_empty(),
+            "step {step}: rejections {:?}",
+            report.rejections
+        );
+        x = integ.state.x.clone();
+        let after = total(&x, &problem);
+        let inflow = area_rate * report.dt;
+        let err = ((after - before) - inflow).abs() / inflow;
+        assert!(
+            err < 1e-10,
+            "step {step}: amount change {:e} vs inflow {inflow:e} (rel {err:e})",
+            after - before
+        );
+    }
+    assert!(total(&x, &problem) > m0);
+}
+
+/// Total amount ∫ c dV with the same quadrature as the kernels.
+fn amount(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, x: &[f64]) -> f64 {
+    use dilata_fem::quadrature::rule_for;
+    use dilata_fem::values::space_kind;
+    use dilata_fem::CellValues;
+    let mut total = 0.0;
+    for (id, kind, nodes) in mesh.cells() {
+        let mut cv = CellValues::new(
+            kind,
+            GeometryMode::PlaneStrain,
+            rule_for(kind.shape(), 4),
+            &[space_kind(kind, 1).unwrap()],
+        );
+        let coords: Vec<[f64; 3]> = nodes.iter().map(|&n| mesh.points[n]).collect();
+        cv.reinit(id, &coords).unwrap();
+        let range = dofs.local_range(fields.c, kind);
+        let cd = &dofs.cell_dofs(id)[range];
+        for q in 0..cv.n_points() {
+            let v = cv.spaces[0].values(q);
+            let c: f64 = (0..v.len()).map(|a| v[a] * x[cd[a]]).sum();
+            total += c * cv.jxw[q];
+        }
+    }
+    total
+}
