@@ -1,10 +1,14 @@
 //! The assembly driver: sparsity pattern, cell colouring, parallel deterministic scatter.
 //!
-//! Cells are split into colours such that no two cells of one colour share a node, hence no DOF
-//! and no matrix entry. Colours are processed one after another and the cells of a colour in
-//! parallel; every matrix and vector entry therefore receives its contributions in the same order
-//! (colour order, then the one cell of that colour touching it) whatever the number of threads,
-//! and the result is identical to the last bit for 1 and N threads.
+//! Cells are grouped into chunks of [`CHUNK_CELLS`] consecutive cells, and the chunks are
+//! coloured so that no two chunks of one colour share a node, hence no DOF and no matrix entry.
+//! Colours are processed one after another, the chunks of a colour in parallel, and the cells of
+//! a chunk in order on one thread. Every matrix and vector entry therefore receives its
+//! contributions in the same order (colour order, then the one chunk of that colour touching it,
+//! then cell order) whatever the number of threads, and the result is identical to the last bit
+//! for 1 and N threads. Chunks rather than single cells keep the memory traffic local: a chunk of
+//! neighbouring cells works on a compact set of matrix rows, and a mesh needs few chunk colours,
+//! so the matrix is swept a few times rather than once per cell colour.
 //!
 //! Kernels ([`CellKernel`], [`FacetKernel`]) see one cell at a time and write a dense local
 //! matrix and vector; they never see global data. The assembler never sees physics.
@@ -13,7 +17,7 @@ use std::sync::Arc;
 
 use dilata_linalg::{CsrMatrix, CsrPattern, Parallelism};
 use dilata_mesh::{CellKind, Facet, Mesh};
-use rayon::prelude::{IndexedParallelIterator, ParallelIterator, ParallelSlice};
+use rayon::prelude::{IndexedParallelIterator, IntoParallelRefIterator, ParallelIterator};
 
 use crate::constraints::Constraints;
 use crate::dofs::DofMap;
@@ -95,7 +99,8 @@ pub struct AssemblyTarget<'a> {
 /// Sparsity pattern and colouring of one mesh and DOF map, built once and reused.
 pub struct Assembler {
     pattern: Arc<CsrPattern>,
-    colors: Vec<Vec<usize>>,
+    /// Per colour, the cell ranges (chunks) of that colour.
+    colors: Vec<Vec<std::ops::Range<usize>>>,
     pool: Option<rayon::ThreadPool>,
     parallelism: Parallelism,
 }
@@ -183,12 +188,12 @@ impl Assembler {
         let constraints = target.constraints;
         let pattern = &*self.pattern;
         let n_max = dofs.max_cell_dofs();
-        let run_color = |cells: &[usize]| -> Result<(), K::Error> {
+        let run_color = |chunks: &[std::ops::Range<usize>]| -> Result<(), K::Error> {
             let work = |scratch: &mut (K::Scratch, LocalBuffers),
-                        chunk: &[usize]|
+                        chunk: &std::ops::Range<usize>|
              -> Result<(), K::Error> {
                 let (ks, buf) = scratch;
-                for &c in chunk {
+                for c in chunk.clone() {
                     let (kind, nodes) = mesh.cell(c);
                     let mut coords = std::mem::take(&mut buf.coords);
                     coords.clear();
@@ -213,8 +218,8 @@ impl Assembler {
                     );
                     buf.coords = coords;
                     result?;
-                    // SAFETY: cells of one colour share no node, hence no DOF, row or entry;
-                    // each entry is written by exactly one task of this colour.
+                    // SAFETY: chunks of one colour share no node, hence no DOF, row or entry;
+                    // each entry is written by exactly one task (chunk) of this colour.
                     unsafe {
                         scatter_local(
                             pattern,
@@ -232,18 +237,18 @@ impl Assembler {
             match &self.pool {
                 None => {
                     let mut s = (kernel.build_scratch(), LocalBuffers::new(n_max));
-                    work(&mut s, cells)
+                    chunks.iter().try_for_each(|chunk| work(&mut s, chunk))
                 }
                 Some(pool) => pool.install(|| {
-                    cells.par_chunks(32).with_min_len(1).try_for_each_init(
+                    chunks.par_iter().with_min_len(1).try_for_each_init(
                         || (kernel.build_scratch(), LocalBuffers::new(n_max)),
                         |s, chunk| work(s, chunk),
                     )
                 }),
             }
         };
-        for cells in &self.colors {
-            run_color(cells)?;
+        for chunks in &self.colors {
+            run_color(chunks)?;
         }
         Ok(())
     }
@@ -580,31 +585,46 @@ fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern 
     }
 }
 
-/// Greedy colouring: no two cells of one colour share a node. Deterministic (cell order).
-fn build_colors(mesh: &Mesh, node_cells: &(Vec<usize>, Vec<usize>)) -> Vec<Vec<usize>> {
+/// Number of consecutive cells in one assembly chunk. Fixed (not derived from the thread
+/// count) so that the colouring, hence the order of floating-point sums, never depends on it.
+pub const CHUNK_CELLS: usize = 256;
+
+/// Greedy colouring of the chunks: no two chunks of one colour share a node. Deterministic
+/// (chunk order).
+fn build_colors(
+    mesh: &Mesh,
+    node_cells: &(Vec<usize>, Vec<usize>),
+) -> Vec<Vec<std::ops::Range<usize>>> {
     let (ptr, cells) = node_cells;
     let n_cells = mesh.n_cells();
-    let mut color = vec![usize::MAX; n_cells];
-    let mut forbidden: Vec<usize> = Vec::new(); // forbidden[k] == c marks colour k as taken for cell c
-    let mut colors: Vec<Vec<usize>> = Vec::new();
-    for (c, _, nodes) in mesh.cells() {
-        for &n in nodes {
-            for &other in &cells[ptr[n]..ptr[n + 1]] {
-                let k = color[other];
-                if k != usize::MAX {
-                    forbidden[k] = c;
+    let n_chunks = n_cells.div_ceil(CHUNK_CELLS);
+    let mut color = vec![usize::MAX; n_chunks];
+    // forbidden[k] == q marks colour k as taken for chunk q.
+    let mut forbidden: Vec<usize> = Vec::new();
+    let mut colors: Vec<Vec<std::ops::Range<usize>>> = Vec::new();
+    let mut cell_iter = mesh.cells().peekable();
+    for q in 0..n_chunks {
+        let range = q * CHUNK_CELLS..((q + 1) * CHUNK_CELLS).min(n_cells);
+        while let Some((c, _, nodes)) = cell_iter.next_if(|(c, _, _)| range.contains(c)) {
+            debug_assert!(range.contains(&c));
+            for &n in nodes {
+                for &other in &cells[ptr[n]..ptr[n + 1]] {
+                    let k = color[other / CHUNK_CELLS];
+                    if k != usize::MAX {
+                        forbidden[k] = q;
+                    }
                 }
             }
         }
         let k = (0..forbidden.len())
-            .find(|&k| forbidden[k] != c)
+            .find(|&k| forbidden[k] != q)
             .unwrap_or(forbidden.len());
         if k == forbidden.len() {
             forbidden.push(usize::MAX);
             colors.push(Vec::new());
         }
-        color[c] = k;
-        colors[k].push(c);
+        color[q] = k;
+        colors[k].push(range);
     }
     colors
 }
