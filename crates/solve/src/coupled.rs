@@ -12,11 +12,9 @@ use dilata_linalg::{CsrMatrix, CsrPattern};
 use dilata_material::coupled::CoupledPointLaw;
 use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{CoupledError, CoupledFields, CoupledKernel, RateTerm};
-use dilata_physics::elasticity::{SurfaceLoad, SurfaceLoadKernel};
-use dilata_physics::poisson::FluxKernel;
 
 use crate::newton::DiscreteSystem;
-use crate::problem::{BoundaryLoad, BoxScalarFn};
+use crate::problem::{add_loads, BoundaryLoad, BoxScalarFn, LoadContext};
 use crate::time::TransientSystem;
 
 /// A coupled problem on one mesh.
@@ -104,44 +102,18 @@ impl<'m> CoupledProblem<'m> {
         };
         self.assembler
             .add_cells(self.mesh, &self.dofs, &kernel, &mut target)?;
-        for (facets, load) in &self.loads {
-            let done = match load {
-                BoundaryLoad::Flux(f) => {
-                    let k = FluxKernel {
-                        dofs: &self.dofs,
-                        field: self.fields.c,
-                        mode: self.mode,
-                        inward_flux: f.as_ref(),
-                    };
-                    self.assembler
-                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
-                }
-                BoundaryLoad::Traction(f) => {
-                    let k = SurfaceLoadKernel {
-                        dofs: &self.dofs,
-                        field: self.fields.u,
-                        mode: self.mode,
-                        load: SurfaceLoad::Traction(f.as_ref()),
-                    };
-                    self.assembler
-                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
-                }
-                BoundaryLoad::Pressure(p) => {
-                    let k = SurfaceLoadKernel {
-                        dofs: &self.dofs,
-                        field: self.fields.u,
-                        mode: self.mode,
-                        load: SurfaceLoad::Pressure(*p),
-                    };
-                    self.assembler
-                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
-                }
-            };
-            match done {
-                Ok(()) => {}
-                Err(never) => match never {},
-            }
-        }
+        add_loads(
+            &LoadContext {
+                mesh: self.mesh,
+                dofs: &self.dofs,
+                assembler: &self.assembler,
+                mode: self.mode,
+                flux_field: self.fields.c,
+                displacement_field: self.fields.u,
+            },
+            &self.loads,
+            &mut target,
+        );
         self.assembler.finish(&mut target);
         Ok(())
     }

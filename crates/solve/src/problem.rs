@@ -134,44 +134,18 @@ impl<'m> FieldProblem<'m> {
                     .add_cells(self.mesh, &self.dofs, &k, &mut target)?;
             }
         }
-        for (facets, load) in &self.loads {
-            let result = match load {
-                BoundaryLoad::Flux(f) => {
-                    let k = FluxKernel {
-                        dofs: &self.dofs,
-                        field: self.field,
-                        mode: self.mode,
-                        inward_flux: f.as_ref(),
-                    };
-                    self.assembler
-                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
-                }
-                BoundaryLoad::Traction(f) => {
-                    let k = SurfaceLoadKernel {
-                        dofs: &self.dofs,
-                        field: self.field,
-                        mode: self.mode,
-                        load: SurfaceLoad::Traction(f.as_ref()),
-                    };
-                    self.assembler
-                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
-                }
-                BoundaryLoad::Pressure(p) => {
-                    let k = SurfaceLoadKernel {
-                        dofs: &self.dofs,
-                        field: self.field,
-                        mode: self.mode,
-                        load: SurfaceLoad::Pressure(*p),
-                    };
-                    self.assembler
-                        .add_facets(self.mesh, &self.dofs, facets, &k, &mut target)
-                }
-            };
-            match result {
-                Ok(()) => {}
-                Err(never) => match never {},
-            }
-        }
+        add_loads(
+            &LoadContext {
+                mesh: self.mesh,
+                dofs: &self.dofs,
+                assembler: &self.assembler,
+                mode: self.mode,
+                flux_field: self.field,
+                displacement_field: self.field,
+            },
+            &self.loads,
+            &mut target,
+        );
         self.assembler.finish(&mut target);
         Ok(())
     }
@@ -203,5 +177,62 @@ impl DiscreteSystem for FieldProblem<'_> {
 
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), InvertedCell> {
         self.assemble(x, None, residual)
+    }
+}
+
+/// Where boundary loads go: the field that receives species fluxes and the one that receives
+/// tractions and pressure (the same field in a single-field problem).
+pub(crate) struct LoadContext<'a> {
+    pub mesh: &'a Mesh,
+    pub dofs: &'a DofMap,
+    pub assembler: &'a Assembler,
+    pub mode: GeometryMode,
+    pub flux_field: FieldHandle,
+    pub displacement_field: FieldHandle,
+}
+
+/// Add every boundary load's facet contributions to `target`.
+pub(crate) fn add_loads(
+    ctx: &LoadContext<'_>,
+    loads: &[(Vec<Facet>, BoundaryLoad)],
+    target: &mut AssemblyTarget<'_>,
+) {
+    for (facets, load) in loads {
+        let result = match load {
+            BoundaryLoad::Flux(f) => {
+                let k = FluxKernel {
+                    dofs: ctx.dofs,
+                    field: ctx.flux_field,
+                    mode: ctx.mode,
+                    inward_flux: f.as_ref(),
+                };
+                ctx.assembler
+                    .add_facets(ctx.mesh, ctx.dofs, facets, &k, target)
+            }
+            BoundaryLoad::Traction(f) => {
+                let k = SurfaceLoadKernel {
+                    dofs: ctx.dofs,
+                    field: ctx.displacement_field,
+                    mode: ctx.mode,
+                    load: SurfaceLoad::Traction(f.as_ref()),
+                };
+                ctx.assembler
+                    .add_facets(ctx.mesh, ctx.dofs, facets, &k, target)
+            }
+            BoundaryLoad::Pressure(p) => {
+                let k = SurfaceLoadKernel {
+                    dofs: ctx.dofs,
+                    field: ctx.displacement_field,
+                    mode: ctx.mode,
+                    load: SurfaceLoad::Pressure(*p),
+                };
+                ctx.assembler
+                    .add_facets(ctx.mesh, ctx.dofs, facets, &k, target)
+            }
+        };
+        match result {
+            Ok(()) => {}
+            Err(never) => match never {},
+        }
     }
 }
