@@ -156,25 +156,44 @@ impl CellValues {
 
     /// Map the cell with node coordinates `coords` (geometry nodes, in node order).
     pub fn reinit(&mut self, cell: usize, coords: &[[f64; 3]]) -> Result<(), InvertedCell> {
-        let dim = self.kind.dim();
+        assert_eq!(
+            coords.len(),
+            self.geometry.n_nodes,
+            "coordinates of a {} cell",
+            self.kind
+        );
+        // The reference dimension as a constant, so the small loops below unroll.
+        match self.kind.dim() {
+            1 => self.reinit_dim::<1>(cell, coords),
+            2 => self.reinit_dim::<2>(cell, coords),
+            3 => self.reinit_dim::<3>(cell, coords),
+            d => panic!("cells of dimension {d} have no isoparametric map"),
+        }
+    }
+
+    fn reinit_dim<const D: usize>(
+        &mut self,
+        cell: usize,
+        coords: &[[f64; 3]],
+    ) -> Result<(), InvertedCell> {
         let n = self.geometry.n_nodes;
-        assert_eq!(coords.len(), n, "coordinates of a {} cell", self.kind);
         for q in 0..self.n_points() {
             let nv = self.geometry.values_at(q);
             let dn = self.geometry.grads_at(q);
             let mut x = [0.0; 3];
             let mut jac = [[0.0; 3]; 3]; // jac[i][j] = d x_i / d xi_j
             for a in 0..n {
+                let (xa, na, ga) = (&coords[a], nv[a], &dn[a]);
                 for i in 0..3 {
-                    x[i] += nv[a] * coords[a][i];
+                    x[i] += na * xa[i];
                 }
-                for i in 0..dim {
-                    for j in 0..dim {
-                        jac[i][j] += coords[a][i] * dn[a][j];
+                for i in 0..D {
+                    for j in 0..D {
+                        jac[i][j] += xa[i] * ga[j];
                     }
                 }
             }
-            let (det, inv) = invert(dim, &jac);
+            let (det, inv) = invert(D, &jac);
             if det.is_nan() || det <= 0.0 {
                 return Err(InvertedCell {
                     cell,
@@ -197,15 +216,15 @@ impl CellValues {
                 let inv = &self.inv_jac[q];
                 let dref = s.table.grads_at(q);
                 let out = &mut s.grads[q * ns..(q + 1) * ns];
-                for a in 0..ns {
+                for (o, d) in out.iter_mut().zip(dref) {
                     let mut g = [0.0; 3];
                     // dN/dx_i = sum_j dN/dxi_j * dxi_j/dx_i
-                    for i in 0..dim {
-                        for j in 0..dim {
-                            g[i] += dref[a][j] * inv[j][i];
+                    for i in 0..D {
+                        for j in 0..D {
+                            g[i] += d[j] * inv[j][i];
                         }
                     }
-                    out[a] = g;
+                    *o = g;
                 }
             }
         }
