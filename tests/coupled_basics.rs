@@ -16,6 +16,7 @@ use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
 use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::{CoupledFields, CoupledKernel, RateTerm};
+use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::newton::NewtonParams;
 use dilata_solve::time::{Integrator, IntegratorParams, Scheme, StepSizing};
@@ -490,28 +491,7 @@ fn mass_balance_with_inward_flux() {
     assert!(total(&x, &problem) > m0);
 }
 
-/// Total amount ∫ c dV with the same quadrature as the kernels.
+/// ∫ c dV with the kernels' cell quadrature (see `field_integral`).
 fn amount(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, x: &[f64]) -> f64 {
-    use dilata_fem::quadrature::rule_for;
-    use dilata_fem::values::space_kind;
-    use dilata_fem::CellValues;
-    let mut total = 0.0;
-    for (id, kind, nodes) in mesh.cells() {
-        let mut cv = CellValues::new(
-            kind,
-            GeometryMode::PlaneStrain,
-            rule_for(kind.shape(), 4),
-            &[space_kind(kind, 1).unwrap()],
-        );
-        let coords: Vec<[f64; 3]> = nodes.iter().map(|&n| mesh.points[n]).collect();
-        cv.reinit(id, &coords).unwrap();
-        let range = dofs.local_range(fields.c, kind);
-        let cd = &dofs.cell_dofs(id)[range];
-        for q in 0..cv.n_points() {
-            let v = cv.spaces[0].values(q);
-            let c: f64 = (0..v.len()).map(|a| v[a] * x[cd[a]]).sum();
-            total += c * cv.jxw[q];
-        }
-    }
-    total
+    field_integral(mesh, dofs, fields.c, GeometryMode::PlaneStrain, x).unwrap()
 }

@@ -20,7 +20,7 @@ use std::time::Instant;
 use dilata_fem::dofs::DofMap;
 use dilata_fem::quadrature::rule_for;
 use dilata_fem::values::space_kind;
-use dilata_fem::{BoundaryTarget, CellValues, FacetValues, FieldSpec, GeometryMode};
+use dilata_fem::{BoundaryTarget, FacetValues, FieldSpec, GeometryMode};
 use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
 use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams};
 use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
@@ -30,8 +30,8 @@ use dilata_material::stiffness::StiffnessLaw;
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
 use dilata_mesh::generate::{quarter_disc, DiscParams};
 use dilata_mesh::{CellKind, Mesh};
-use dilata_physics::cellcache::stiffness_degree;
 use dilata_physics::coupled::CoupledFields;
+use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::newton::NewtonParams;
 use dilata_solve::time::{Integrator, IntegratorParams, Scheme, StepSizing};
@@ -114,28 +114,9 @@ fn theta_series(x: f64, tau: f64, roots: &[f64]) -> f64 {
     3.0 * tau + 0.5 * x * x - 0.3 - sum
 }
 
-/// ∫ c dV (axisymmetric, with the 2πr weight) with the same cell quadrature as the coupled
-/// kernel, so that the discrete mass balance holds to round-off.
+/// ∫ c dV with the kernels' cell quadrature (see `field_integral`).
 fn amount(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, x: &[f64]) -> f64 {
-    let mut total = 0.0;
-    for (id, kind, nodes) in mesh.cells() {
-        let mut cv = CellValues::new(
-            kind,
-            GeometryMode::Axisymmetric,
-            rule_for(kind.shape(), stiffness_degree(kind)),
-            &[space_kind(kind, 1).unwrap()],
-        );
-        let coords: Vec<[f64; 3]> = nodes.iter().map(|&n| mesh.points[n]).collect();
-        cv.reinit(id, &coords).unwrap();
-        let range = dofs.local_range(fields.c, kind);
-        let cd = &dofs.cell_dofs(id)[range];
-        for q in 0..cv.n_points() {
-            let v = cv.spaces[0].values(q);
-            let c: f64 = (0..v.len()).map(|a| v[a] * x[cd[a]]).sum();
-            total += c * cv.jxw[q];
-        }
-    }
-    total
+    field_integral(mesh, dofs, fields.c, GeometryMode::Axisymmetric, x).unwrap()
 }
 
 /// Area of the `outer` boundary (the half sphere's surface, 2πR² exactly) with the facet

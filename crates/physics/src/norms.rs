@@ -6,6 +6,8 @@ use dilata_fem::values::space_kind;
 use dilata_fem::{CellValues, FieldHandle, GeometryMode, InvertedCell};
 use dilata_mesh::Mesh;
 
+use crate::cellcache::stiffness_degree;
+
 /// An exact scalar field: value and gradient at a point.
 pub trait ExactScalar: Sync {
     fn value(&self, x: [f64; 3]) -> f64;
@@ -78,4 +80,50 @@ pub fn scalar_error_norms(
         l2: l2.sqrt(),
         h1_semi: h1.sqrt(),
     })
+}
+
+/// Integral of component 0 of a field over the mesh, `∫ u dV` (with the `2πr` weight in
+/// axisymmetry), using the cell quadrature of the kernels ([`stiffness_degree`]) so that a
+/// discrete balance assembled by them (e.g. the total amount of species against the integrated
+/// inflow) holds to round-off.
+pub fn field_integral(
+    mesh: &Mesh,
+    dofs: &DofMap,
+    field: FieldHandle,
+    mode: GeometryMode,
+    solution: &[f64],
+) -> Result<f64, InvertedCell> {
+    let order = dofs.spec(field).order;
+    let mut cache: Vec<CellValues> = Vec::new();
+    let mut coords = Vec::new();
+    let mut total = 0.0;
+    for (id, kind, nodes) in mesh.cells() {
+        let pos = match cache.iter().position(|c| c.kind == kind) {
+            Some(p) => p,
+            None => {
+                let sk = space_kind(kind, order).expect("validated by the DOF map");
+                cache.push(CellValues::new(
+                    kind,
+                    mode,
+                    rule_for(kind.shape(), stiffness_degree(kind)),
+                    &[sk],
+                ));
+                cache.len() - 1
+            }
+        };
+        let cv = &mut cache[pos];
+        coords.clear();
+        coords.extend(nodes.iter().map(|&n| mesh.points[n]));
+        cv.reinit(id, &coords)?;
+        let local = &dofs.cell_dofs(id)[dofs.local_range(field, kind)];
+        let ncomp = dofs.spec(field).n_components;
+        for q in 0..cv.n_points() {
+            let v = cv.spaces[0].values(q);
+            let value: f64 = (0..v.len())
+                .map(|a| v[a] * solution[local[a * ncomp]])
+                .sum();
+            total += value * cv.jxw[q];
+        }
+    }
+    Ok(total)
 }
