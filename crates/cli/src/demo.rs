@@ -166,7 +166,7 @@ pub fn run(out: &Path, threads: Option<usize>, refine: usize) -> anyhow::Result<
         n_dofs
     );
     println!(
-        "  Newton      {} iterations, residual {:.3e} -> {:.3e}",
+        "  Newton      iterations: {}, residual {:.3e} -> {:.3e}",
         info.iterations,
         info.residual_norms[0],
         info.residual_norms.last().copied().unwrap_or(f64::NAN)
