@@ -2,15 +2,15 @@
 //! the coupled-model issue): consistent tangent against finite differences, the swelling patch
 //! states, and the discrete mass balance.
 
+mod common;
+
 use dilata_fem::dofs::DofMap;
-use dilata_fem::{BoundaryTarget, CellInput, CellKernel, FieldSpec, GeometryMode, LocalOutput};
+use dilata_fem::{BoundaryTarget, CellInput, CellKernel, GeometryMode, LocalOutput};
 use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
-use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams, LatticeGasParams};
+use dilata_material::chemical::{ChemicalLaw, LatticeGasParams};
 use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
 use dilata_material::elastic::Isotropic;
-use dilata_material::mobility::{
-    Diffusivity, DiluteMobilityParams, LatticeGasMobilityParams, MobilityLaw,
-};
+use dilata_material::mobility::{Diffusivity, LatticeGasMobilityParams, MobilityLaw};
 use dilata_material::stiffness::StiffnessLaw;
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
 use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
@@ -32,31 +32,23 @@ const T: f64 = 298.15;
 const C0: f64 = 1000.0;
 const C_MAX: f64 = 2.37e4;
 
-fn dilute_law(plane_stress: bool) -> CoupledPointLaw {
-    let mut stiffness = StiffnessLaw::isotropic(Isotropic::new(E, NU).unwrap());
-    if plane_stress {
-        stiffness = stiffness.plane_stress();
+fn host() -> common::DiluteHost {
+    common::DiluteHost {
+        young: E,
+        poisson: NU,
+        omega: OMEGA,
+        diffusivity: D,
+        temperature: T,
+        c_ref: C0,
     }
-    CoupledPointLaw::new(CoupledLawParts {
-        stiffness,
-        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
-            partial_molar_volume: OMEGA,
-            c_ref: C0,
-        })
-        .unwrap(),
-        chemical: ChemicalLaw::ideal_dilute(IdealDiluteParams {
-            mu0: 0.0,
-            temperature: T,
-            c_ref: C0,
-        })
-        .unwrap(),
-        mobility: MobilityLaw::dilute(DiluteMobilityParams {
-            diffusivity: Diffusivity::isotropic(D).unwrap(),
-            temperature: T,
-        })
-        .unwrap(),
-    })
-    .unwrap()
+}
+
+fn dilute_law(plane_stress: bool) -> CoupledPointLaw {
+    let mut parts = common::dilute_parts(&host());
+    if plane_stress {
+        parts.stiffness = parts.stiffness.plane_stress();
+    }
+    CoupledPointLaw::new(parts).unwrap()
 }
 
 fn lattice_law() -> CoupledPointLaw {
@@ -82,24 +74,6 @@ fn lattice_law() -> CoupledPointLaw {
         .unwrap(),
     })
     .unwrap()
-}
-
-fn coupled_dofs(mesh: &Mesh, u_order: usize) -> (DofMap, CoupledFields) {
-    let dofs = DofMap::build(
-        mesh,
-        &[
-            FieldSpec::vector("u", mesh.dim, u_order),
-            FieldSpec::scalar("c", 1),
-            FieldSpec::scalar("mu", 1),
-        ],
-    )
-    .unwrap();
-    let fields = CoupledFields {
-        u: dofs.field("u").unwrap(),
-        c: dofs.field("c").unwrap(),
-        mu: dofs.field("mu").unwrap(),
-    };
-    (dofs, fields)
 }
 
 /// Every tangent block of the cell kernel equals central differences of its residual
@@ -164,7 +138,7 @@ fn coupled_tangent_matches_finite_differences() {
         ),
     ];
     for (mesh, mode, law) in &cases {
-        let (dofs, fields) = coupled_dofs(mesh, 2);
+        let (dofs, fields) = common::coupled_dofs(mesh, 2);
         let n = dofs.n_dofs();
         // A smooth non-trivial state: displacements ~1e-9 m, c around C0 (varying ±20 %),
         // μ ~ 1e3 J/mol with gradients.
@@ -331,7 +305,7 @@ fn uniform_swelling_free_and_clamped() {
     })
     .unwrap();
     for clamped in [false, true] {
-        let (dofs, fields) = coupled_dofs(&mesh, 2);
+        let (dofs, fields) = common::coupled_dofs(&mesh, 2);
         let mut problem = CoupledProblem::new(
             &mesh,
             dofs,
@@ -409,7 +383,7 @@ fn mass_balance_with_inward_flux() {
         kind: CellKind::Quad8,
     })
     .unwrap();
-    let (dofs, fields) = coupled_dofs(&mesh, 2);
+    let (dofs, fields) = common::coupled_dofs(&mesh, 2);
     let mut problem = CoupledProblem::new(
         &mesh,
         dofs,

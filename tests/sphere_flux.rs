@@ -15,19 +15,16 @@
 //! dilute mobility M = D c/(RT) with μ = RT ln(c/c_ref) gives Fick's law J = −D grad c
 //! (crates/material/src/mobility.rs), which is what the series describes.
 
+mod common;
+
 use std::time::Instant;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::quadrature::rule_for;
 use dilata_fem::values::space_kind;
-use dilata_fem::{BoundaryTarget, FacetValues, FieldSpec, GeometryMode};
+use dilata_fem::{BoundaryTarget, FacetValues, GeometryMode};
 use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
-use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams};
-use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
-use dilata_material::elastic::Isotropic;
-use dilata_material::mobility::{Diffusivity, DiluteMobilityParams, MobilityLaw};
-use dilata_material::stiffness::StiffnessLaw;
-use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+use dilata_material::coupled::CoupledPointLaw;
 use dilata_mesh::generate::{quarter_disc, DiscParams};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::CoupledFields;
@@ -53,26 +50,14 @@ const J: f64 = D * DELTA_C / RADIUS;
 const TAU_END: f64 = 0.1;
 
 fn law() -> CoupledPointLaw {
-    CoupledPointLaw::new(CoupledLawParts {
-        stiffness: StiffnessLaw::isotropic(Isotropic::new(E, NU).unwrap()),
-        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
-            partial_molar_volume: OMEGA,
-            c_ref: C0,
-        })
-        .unwrap(),
-        chemical: ChemicalLaw::ideal_dilute(IdealDiluteParams {
-            mu0: 0.0,
-            temperature: T,
-            c_ref: C0,
-        })
-        .unwrap(),
-        mobility: MobilityLaw::dilute(DiluteMobilityParams {
-            diffusivity: Diffusivity::isotropic(D).unwrap(),
-            temperature: T,
-        })
-        .unwrap(),
+    common::dilute_law(&common::DiluteHost {
+        young: E,
+        poisson: NU,
+        omega: OMEGA,
+        diffusivity: D,
+        temperature: T,
+        c_ref: C0,
     })
-    .unwrap()
 }
 
 /// The n-th positive root of tan λ = λ (n ≥ 1), which lies in (nπ, (n + ½)π): bisection on
@@ -159,20 +144,7 @@ fn run(n_cells: usize, n_steps: usize) -> Outcome {
         kind: CellKind::Quad8,
     })
     .unwrap();
-    let dofs = DofMap::build(
-        &mesh,
-        &[
-            FieldSpec::vector("u", 2, 2),
-            FieldSpec::scalar("c", 1),
-            FieldSpec::scalar("mu", 1),
-        ],
-    )
-    .unwrap();
-    let fields = CoupledFields {
-        u: dofs.field("u").unwrap(),
-        c: dofs.field("c").unwrap(),
-        mu: dofs.field("mu").unwrap(),
-    };
+    let (dofs, fields) = common::coupled_dofs(&mesh, 2);
     let mut problem = CoupledProblem::new(
         &mesh,
         dofs,

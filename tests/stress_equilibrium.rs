@@ -8,19 +8,17 @@
 //! condition anywhere (closed body). Starting from uniform c = c_ref the solute moves from the
 //! compressed to the stretched side until μ = RT ln(c/c_ref) − Ω σ_h is uniform.
 
+mod common;
+
 use std::time::Instant;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::quadrature::rule_for;
 use dilata_fem::values::space_kind;
-use dilata_fem::{BoundaryTarget, CellValues, FieldSpec, GeometryMode};
+use dilata_fem::{BoundaryTarget, CellValues, GeometryMode};
 use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
-use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams};
-use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw, PointInput};
-use dilata_material::elastic::{hydrostatic, Isotropic};
-use dilata_material::mobility::{Diffusivity, DiluteMobilityParams, MobilityLaw};
-use dilata_material::stiffness::StiffnessLaw;
-use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+use dilata_material::coupled::{CoupledPointLaw, PointInput};
+use dilata_material::elastic::hydrostatic;
 use dilata_mesh::generate::{rectangle, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::CoupledFields;
@@ -49,26 +47,14 @@ const S0: f64 = 200e6;
 const X_MIN: f64 = HEIGHT;
 
 fn law() -> CoupledPointLaw {
-    CoupledPointLaw::new(CoupledLawParts {
-        stiffness: StiffnessLaw::isotropic(Isotropic::new(E, NU).unwrap()),
-        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
-            partial_molar_volume: OMEGA,
-            c_ref: C0,
-        })
-        .unwrap(),
-        chemical: ChemicalLaw::ideal_dilute(IdealDiluteParams {
-            mu0: 0.0,
-            temperature: T,
-            c_ref: C0,
-        })
-        .unwrap(),
-        mobility: MobilityLaw::dilute(DiluteMobilityParams {
-            diffusivity: Diffusivity::isotropic(D).unwrap(),
-            temperature: T,
-        })
-        .unwrap(),
+    common::dilute_law(&common::DiluteHost {
+        young: E,
+        poisson: NU,
+        omega: OMEGA,
+        diffusivity: D,
+        temperature: T,
+        c_ref: C0,
     })
-    .unwrap()
 }
 
 struct Outcome {
@@ -166,20 +152,7 @@ fn run(nx: usize, ny: usize) -> Outcome {
         kind: CellKind::Quad8,
     })
     .unwrap();
-    let dofs = DofMap::build(
-        &mesh,
-        &[
-            FieldSpec::vector("u", 2, 2),
-            FieldSpec::scalar("c", 1),
-            FieldSpec::scalar("mu", 1),
-        ],
-    )
-    .unwrap();
-    let fields = CoupledFields {
-        u: dofs.field("u").unwrap(),
-        c: dofs.field("c").unwrap(),
-        mu: dofs.field("mu").unwrap(),
-    };
+    let (dofs, fields) = common::coupled_dofs(&mesh, 2);
     let mut problem = CoupledProblem::new(
         &mesh,
         dofs,

@@ -94,3 +94,75 @@ pub fn solve(problem: &mut FieldProblem<'_>) -> Vec<f64> {
         .expect("a linear problem converges in one or two Newton iterations");
     x
 }
+
+/// Material numbers of a coupled dilute host (SI units).
+pub struct DiluteHost {
+    pub young: f64,
+    pub poisson: f64,
+    /// Partial molar volume Ω in m³/mol.
+    pub omega: f64,
+    pub diffusivity: f64,
+    pub temperature: f64,
+    /// Stress-free concentration, also the reference of the dilute potential.
+    pub c_ref: f64,
+}
+
+/// The parts of the coupled dilute law of `host` (a caller may still change the stiffness,
+/// e.g. condense it for plane stress, before `CoupledPointLaw::new`).
+pub fn dilute_parts(host: &DiluteHost) -> dilata_material::coupled::CoupledLawParts {
+    use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams};
+    use dilata_material::elastic::Isotropic;
+    use dilata_material::mobility::{Diffusivity, DiluteMobilityParams, MobilityLaw};
+    use dilata_material::stiffness::StiffnessLaw;
+    use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+    dilata_material::coupled::CoupledLawParts {
+        stiffness: StiffnessLaw::isotropic(Isotropic::new(host.young, host.poisson).unwrap()),
+        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
+            partial_molar_volume: host.omega,
+            c_ref: host.c_ref,
+        })
+        .unwrap(),
+        chemical: ChemicalLaw::ideal_dilute(IdealDiluteParams {
+            mu0: 0.0,
+            temperature: host.temperature,
+            c_ref: host.c_ref,
+        })
+        .unwrap(),
+        mobility: MobilityLaw::dilute(DiluteMobilityParams {
+            diffusivity: Diffusivity::isotropic(host.diffusivity).unwrap(),
+            temperature: host.temperature,
+        })
+        .unwrap(),
+    }
+}
+
+/// The coupled dilute law of `host`.
+pub fn dilute_law(host: &DiluteHost) -> dilata_material::coupled::CoupledPointLaw {
+    dilata_material::coupled::CoupledPointLaw::new(dilute_parts(host)).unwrap()
+}
+
+/// DOF map of the coupled fields: `u` of order `u_order`, linear `c` and `mu`.
+pub fn coupled_dofs(
+    mesh: &Mesh,
+    u_order: usize,
+) -> (
+    dilata_fem::dofs::DofMap,
+    dilata_physics::coupled::CoupledFields,
+) {
+    use dilata_fem::FieldSpec;
+    let dofs = dilata_fem::dofs::DofMap::build(
+        mesh,
+        &[
+            FieldSpec::vector("u", mesh.dim, u_order),
+            FieldSpec::scalar("c", 1),
+            FieldSpec::scalar("mu", 1),
+        ],
+    )
+    .unwrap();
+    let fields = dilata_physics::coupled::CoupledFields {
+        u: dofs.field("u").unwrap(),
+        c: dofs.field("c").unwrap(),
+        mu: dofs.field("mu").unwrap(),
+    };
+    (dofs, fields)
+}
