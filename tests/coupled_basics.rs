@@ -15,7 +15,7 @@ use dilata_material::stiffness::StiffnessLaw;
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
 use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
-use dilata_physics::coupled::{CoupledFields, CoupledKernel, RateTerm};
+use dilata_physics::coupled::{CoupledFields, CoupledKernel, LawMap, RateTerm};
 use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::newton::NewtonParams;
@@ -162,7 +162,7 @@ fn coupled_tangent_matches_finite_differences() {
             dofs: &dofs,
             fields,
             mode: *mode,
-            law,
+            laws: &LawMap::uniform(*law, mesh.n_cells()),
             rate: RateTerm {
                 a0: 1e2,
                 history: &history,
@@ -215,7 +215,7 @@ fn coupled_tangent_matches_finite_differences() {
                     dofs: &dofs,
                     fields,
                     mode: *mode,
-                    law,
+                    laws: &LawMap::uniform(*law, mesh.n_cells()),
                     rate: RateTerm {
                         a0: 1e2,
                         history: &history,
@@ -311,7 +311,7 @@ fn uniform_swelling_free_and_clamped() {
             dofs,
             fields,
             GeometryMode::ThreeD,
-            dilute_law(false),
+            LawMap::uniform(dilute_law(false), mesh.n_cells()),
             Parallelism::Sequential,
         );
         let supports: Vec<(&str, usize)> = if clamped {
@@ -389,7 +389,7 @@ fn mass_balance_with_inward_flux() {
         dofs,
         fields,
         GeometryMode::PlaneStrain,
-        dilute_law(false),
+        LawMap::uniform(dilute_law(false), mesh.n_cells()),
         Parallelism::Sequential,
     );
     problem

@@ -27,7 +27,7 @@ use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
 use dilata_material::coupled::CoupledPointLaw;
 use dilata_mesh::generate::{quarter_disc, DiscParams};
 use dilata_mesh::{CellKind, Mesh};
-use dilata_physics::coupled::CoupledFields;
+use dilata_physics::coupled::{CoupledFields, LawMap};
 use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::newton::NewtonParams;
@@ -150,7 +150,7 @@ fn run(n_cells: usize, n_steps: usize) -> Outcome {
         dofs,
         fields,
         GeometryMode::Axisymmetric,
-        law(),
+        LawMap::uniform(law(), mesh.n_cells()),
         Parallelism::Sequential,
     );
     // u_r = 0 on the axis, u_z = 0 on the equatorial plane.

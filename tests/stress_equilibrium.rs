@@ -21,7 +21,7 @@ use dilata_material::coupled::{CoupledPointLaw, PointInput};
 use dilata_material::elastic::hydrostatic;
 use dilata_mesh::generate::{rectangle, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
-use dilata_physics::coupled::CoupledFields;
+use dilata_physics::coupled::{CoupledFields, LawMap};
 use dilata_physics::elasticity::strain_at;
 use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
@@ -158,7 +158,7 @@ fn run(nx: usize, ny: usize) -> Outcome {
         dofs,
         fields,
         GeometryMode::PlaneStrain,
-        law(),
+        LawMap::uniform(law(), mesh.n_cells()),
         Parallelism::Sequential,
     );
     for component in 0..2 {

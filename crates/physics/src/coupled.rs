@@ -51,12 +51,66 @@ pub enum CoupledError {
     },
 }
 
+/// The point law of every cell: one law per material and the material of each cell.
+#[derive(Clone, Debug, PartialEq)]
+pub struct LawMap {
+    laws: Vec<CoupledPointLaw>,
+    law_of_cell: Vec<u32>,
+}
+
+impl LawMap {
+    /// One law for all `n_cells` cells.
+    pub fn uniform(law: CoupledPointLaw, n_cells: usize) -> Self {
+        LawMap {
+            laws: vec![law],
+            law_of_cell: vec![0; n_cells],
+        }
+    }
+
+    /// Several laws; `law_of_cell[i]` indexes `laws` for cell `i`.
+    ///
+    /// # Panics
+    /// If `laws` is empty or an index is out of range (a bug of the caller, who validates
+    /// region names before building the map).
+    pub fn new(laws: Vec<CoupledPointLaw>, law_of_cell: Vec<u32>) -> Self {
+        assert!(!laws.is_empty(), "a law map needs at least one law");
+        assert!(
+            law_of_cell.iter().all(|&i| (i as usize) < laws.len()),
+            "law index out of range"
+        );
+        LawMap { laws, law_of_cell }
+    }
+
+    /// The law of cell `cell`.
+    pub fn law(&self, cell: usize) -> &CoupledPointLaw {
+        &self.laws[self.law_of_cell[cell] as usize]
+    }
+
+    /// All laws, in the order given.
+    pub fn laws(&self) -> &[CoupledPointLaw] {
+        &self.laws
+    }
+
+    /// Index into [`Self::laws`] of every cell.
+    pub fn law_of_cell(&self) -> &[u32] {
+        &self.law_of_cell
+    }
+
+    /// Highest temperature of the chemical laws (the scale `RT` of potentials).
+    pub fn max_temperature(&self) -> f64 {
+        self.laws
+            .iter()
+            .map(|l| l.parts().chemical.temperature())
+            .fold(0.0, f64::max)
+    }
+}
+
 /// Cell kernel of the coupled problem.
 pub struct CoupledKernel<'a> {
     pub dofs: &'a DofMap,
     pub fields: CoupledFields,
     pub mode: GeometryMode,
-    pub law: &'a CoupledPointLaw,
+    pub laws: &'a LawMap,
     pub rate: RateTerm<'a>,
     /// Volumetric source `s` in mol/(m³ s).
     pub source: Option<ScalarFn<'a>>,
@@ -137,7 +191,8 @@ impl CellKernel for CoupledKernel<'_> {
                 }
             }
             let p = self
-                .law
+                .laws
+                .law(input.id)
                 .evaluate(&PointInput { strain, c, grad_mu })
                 .map_err(|source| CoupledError::Range {
                     cell: input.id,

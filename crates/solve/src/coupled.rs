@@ -9,9 +9,8 @@ use std::sync::Arc;
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Assembler, AssemblyTarget, Constraints, GeometryMode, Parallelism};
 use dilata_linalg::{CsrMatrix, CsrPattern};
-use dilata_material::coupled::CoupledPointLaw;
 use dilata_mesh::{Facet, Mesh};
-use dilata_physics::coupled::{CoupledError, CoupledFields, CoupledKernel, RateTerm};
+use dilata_physics::coupled::{CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm};
 
 use crate::newton::DiscreteSystem;
 use crate::problem::{add_loads, BoundaryLoad, BoxScalarFn, LoadContext};
@@ -25,7 +24,8 @@ pub struct CoupledProblem<'m> {
     pub mode: GeometryMode,
     pub assembler: Assembler,
     pub constraints: Constraints,
-    pub law: CoupledPointLaw,
+    /// Point law of every cell.
+    pub laws: LawMap,
     /// Boundary loads: `Flux` acts on the concentration (inward species flux, mol/(m² s)),
     /// `Traction` and `Pressure` on the displacement.
     pub loads: Vec<(Vec<Facet>, BoundaryLoad)>,
@@ -43,7 +43,7 @@ impl<'m> CoupledProblem<'m> {
         dofs: DofMap,
         fields: CoupledFields,
         mode: GeometryMode,
-        law: CoupledPointLaw,
+        laws: LawMap,
         parallelism: Parallelism,
     ) -> Self {
         let assembler = Assembler::build(mesh, &dofs, parallelism);
@@ -55,7 +55,7 @@ impl<'m> CoupledProblem<'m> {
             fields,
             mode,
             assembler,
-            law,
+            laws,
             loads: Vec::new(),
             source: None,
             time: 0.0,
@@ -89,7 +89,7 @@ impl<'m> CoupledProblem<'m> {
             dofs: &self.dofs,
             fields: self.fields,
             mode: self.mode,
-            law: &self.law,
+            laws: &self.laws,
             rate: RateTerm {
                 a0: self.a0,
                 history: &self.history,
@@ -161,7 +161,7 @@ impl DiscreteSystem for CoupledProblem<'_> {
             }
         }
         let size = (0..3).map(|d| (hi[d] - lo[d]).max(0.0)).fold(0.0, f64::max);
-        let rt = dilata_material::chemical::GAS_CONSTANT * self.law.parts().chemical.temperature();
+        let rt = dilata_material::chemical::GAS_CONSTANT * self.laws.max_temperature();
         vec![size, 0.0, rt]
     }
 
