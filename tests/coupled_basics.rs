@@ -15,7 +15,9 @@ use dilata_material::stiffness::StiffnessLaw;
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
 use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
-use dilata_physics::coupled::{CoupledFields, CoupledKernel, LawMap, RateTerm};
+use dilata_physics::coupled::{
+    CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
+};
 use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::newton::NewtonParams;
@@ -140,124 +142,204 @@ fn coupled_tangent_matches_finite_differences() {
     for (mesh, mode, law) in &cases {
         let (dofs, fields) = common::coupled_dofs(mesh, 2);
         let n = dofs.n_dofs();
-        // A smooth non-trivial state: displacements ~1e-9 m, c around C0 (varying ±20 %),
-        // μ ~ 1e3 J/mol with gradients.
-        let mut x = vec![0.0; n];
-        for node in 0..mesh.n_points() {
-            let p = mesh.points[node];
-            let (sx, sy, sz) = (p[0] / 1e-6, p[1] / 1e-6, p[2] / 1e-6);
-            for comp in 0..mesh.dim {
-                x[dofs.node_dof(fields.u, node, comp).unwrap()] =
-                    1e-9 * ((comp as f64 + 1.0) * sx - 0.7 * sy + 0.3 * sz * sx);
-            }
-            if let Ok(d) = dofs.node_dof(fields.c, node, 0) {
-                x[d] = C0 * (1.0 + 0.2 * (sx - 0.5 * sy + 0.3 * sz));
-            }
-            if let Ok(d) = dofs.node_dof(fields.mu, node, 0) {
-                x[d] = 1e3 * (0.3 + sx * sy - sz);
-            }
-        }
+        let x = smooth_state(mesh, &dofs, fields);
         let history: Vec<f64> = (0..n).map(|i| -((i % 7) as f64) * 1e2).collect();
-        let kernel = CoupledKernel {
-            dofs: &dofs,
-            fields,
-            mode: *mode,
-            laws: &LawMap::uniform(*law, mesh.n_cells()),
-            rate: RateTerm {
-                a0: 1e2,
-                history: &history,
-            },
-            source: None,
-            solution: &x,
-        };
-        let (kind, nodes) = mesh.cell(0);
-        let coords: Vec<[f64; 3]> = nodes.iter().map(|&i| mesh.points[i]).collect();
-        let cd = dofs.cell_dofs(0).to_vec();
-        let m = cd.len();
-        let mut scratch = kernel.build_scratch();
-        let mut ke = vec![0.0; m * m];
-        let mut fe = vec![0.0; m];
-        let input = CellInput {
-            id: 0,
-            kind,
-            nodes,
-            coords: &coords,
-            dofs: &cd,
-        };
-        kernel
-            .cell_into(
-                &input,
-                &mut scratch,
-                LocalOutput {
-                    matrix: Some(&mut ke),
-                    vector: Some(&mut fe),
+        let laws = LawMap::uniform(*law, mesh.n_cells());
+        let run = |xs: &[f64], input: &CellInput<'_>, out: LocalOutput<'_>| {
+            let k = CoupledKernel {
+                dofs: &dofs,
+                fields,
+                mode: *mode,
+                laws: &laws,
+                rate: RateTerm {
+                    a0: 1e2,
+                    history: &history,
                 },
-            )
-            .unwrap();
-        // Central differences column by column; step relative to the unknown's scale.
-        let scale = |d: usize| {
-            if dofs.field_range(fields.u).contains(&d) {
-                1e-9
-            } else if dofs.field_range(fields.c).contains(&d) {
-                C0
-            } else {
-                1e3
-            }
-        };
-        let mut worst: f64 = 0.0;
-        let mut at = (0, 0, 0.0, 0.0);
-        for b in 0..m {
-            let h = 1e-6 * scale(cd[b]);
-            let eval = |delta: f64| {
-                let mut xp = x.clone();
-                xp[cd[b]] += delta;
-                let k = CoupledKernel {
-                    dofs: &dofs,
-                    fields,
-                    mode: *mode,
-                    laws: &LawMap::uniform(*law, mesh.n_cells()),
-                    rate: RateTerm {
-                        a0: 1e2,
-                        history: &history,
-                    },
-                    source: None,
-                    solution: &xp,
-                };
-                let mut s = k.build_scratch();
-                let mut f = vec![0.0; m];
-                k.cell_into(
-                    &input,
-                    &mut s,
-                    LocalOutput {
-                        matrix: None,
-                        vector: Some(&mut f),
-                    },
-                )
-                .unwrap();
-                f
+                source: None,
+                solution: xs,
             };
-            let (fp, fm) = (eval(h), eval(-h));
-            for a in 0..m {
-                let fd = (fp[a] - fm[a]) / (2.0 * h);
-                // Compare sensitivities to a relative change of each unknown: entries scaled by
-                // their column's unknown scale, relative to the largest scaled entry of the row
-                // (fields carry different units, so raw entries are not comparable).
-                let row_scale = (0..m)
-                    .map(|bb| (ke[a * m + bb] * scale(cd[bb])).abs())
-                    .fold(0.0, f64::max)
-                    .max(1e-300);
-                let e = (ke[a * m + b] - fd).abs() * scale(cd[b]) / row_scale;
-                if e > worst {
-                    worst = e;
-                    at = (a, b, ke[a * m + b], fd);
-                }
-            }
-        }
+            k.cell_into(input, &mut k.build_scratch(), out).unwrap();
+        };
+        let (worst, at) = tangent_error(mesh, &dofs, fields, &x, run);
+        let kind = mesh.cell(0).0;
         assert!(
             worst < 1e-6,
             "{kind} {mode:?}: tangent differs from finite differences by {worst:e} at (row, column, tangent, difference) {at:?}"
         );
     }
+}
+
+/// A smooth non-trivial state: displacements ~1e-9 m, c around C0 (varying ±20 %), μ ~ 1e3
+/// J/mol with gradients.
+fn smooth_state(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields) -> Vec<f64> {
+    let mut x = vec![0.0; dofs.n_dofs()];
+    for node in 0..mesh.n_points() {
+        let p = mesh.points[node];
+        let (sx, sy, sz) = (p[0] / 1e-6, p[1] / 1e-6, p[2] / 1e-6);
+        for comp in 0..mesh.dim {
+            x[dofs.node_dof(fields.u, node, comp).unwrap()] =
+                1e-9 * ((comp as f64 + 1.0) * sx - 0.7 * sy + 0.3 * sz * sx);
+        }
+        if let Ok(d) = dofs.node_dof(fields.c, node, 0) {
+            x[d] = C0 * (1.0 + 0.2 * (sx - 0.5 * sy + 0.3 * sz));
+        }
+        if let Ok(d) = dofs.node_dof(fields.mu, node, 0) {
+            x[d] = 1e3 * (0.3 + sx * sy - sz);
+        }
+    }
+    x
+}
+
+/// Worst difference between the local tangent written by `run(x, ..)` on cell 0 and central
+/// differences of its local residual, with the location (row, column, tangent, difference).
+fn tangent_error(
+    mesh: &Mesh,
+    dofs: &DofMap,
+    fields: CoupledFields,
+    x: &[f64],
+    run: impl Fn(&[f64], &CellInput<'_>, LocalOutput<'_>),
+) -> (f64, (usize, usize, f64, f64)) {
+    let (kind, nodes) = mesh.cell(0);
+    let coords: Vec<[f64; 3]> = nodes.iter().map(|&i| mesh.points[i]).collect();
+    let cd = dofs.cell_dofs(0).to_vec();
+    let m = cd.len();
+    let mut ke = vec![0.0; m * m];
+    let mut fe = vec![0.0; m];
+    let input = CellInput {
+        id: 0,
+        kind,
+        nodes,
+        coords: &coords,
+        dofs: &cd,
+    };
+    run(
+        x,
+        &input,
+        LocalOutput {
+            matrix: Some(&mut ke),
+            vector: Some(&mut fe),
+        },
+    );
+    // Central differences column by column; step relative to the unknown's scale.
+    let scale = |d: usize| {
+        if dofs.field_range(fields.u).contains(&d) {
+            1e-9
+        } else if dofs.field_range(fields.c).contains(&d) {
+            C0
+        } else {
+            1e3
+        }
+    };
+    let mut worst: f64 = 0.0;
+    let mut at = (0, 0, 0.0, 0.0);
+    for b in 0..m {
+        let h = 1e-6 * scale(cd[b]);
+        let eval = |delta: f64| {
+            let mut xp = x.to_vec();
+            xp[cd[b]] += delta;
+            let mut f = vec![0.0; m];
+            run(
+                &xp,
+                &input,
+                LocalOutput {
+                    matrix: None,
+                    vector: Some(&mut f),
+                },
+            );
+            f
+        };
+        let (fp, fm) = (eval(h), eval(-h));
+        for a in 0..m {
+            let fd = (fp[a] - fm[a]) / (2.0 * h);
+            // Compare sensitivities to a relative change of each unknown: entries scaled by
+            // their column's unknown scale, relative to the largest scaled entry of the row
+            // (fields carry different units, so raw entries are not comparable).
+            let row_scale = (0..m)
+                .map(|bb| (ke[a * m + bb] * scale(cd[bb])).abs())
+                .fold(0.0, f64::max)
+                .max(1e-300);
+            let e = (ke[a * m + b] - fd).abs() * scale(cd[b]) / row_scale;
+            if e > worst {
+                worst = e;
+                at = (a, b, ke[a * m + b], fd);
+            }
+        }
+    }
+    (worst, at)
+}
+
+/// The same check on the row-swapped system of a prescribed potential: μ constrained on the
+/// left edge, so those nodes carry the potential equation in their c-row and the mass equation
+/// in their μ-row; the swapped tangent must match central differences of the swapped residual.
+#[test]
+fn swapped_tangent_matches_finite_differences() {
+    let mesh = rectangle(&RectangleParams {
+        origin: [0.0, 0.0],
+        lengths: [1e-6, 1e-6],
+        n_cells: [1, 1],
+        kind: CellKind::Quad8,
+    })
+    .unwrap();
+    let (dofs, fields) = common::coupled_dofs(&mesh, 2);
+    let n = dofs.n_dofs();
+    let x = smooth_state(&mesh, &dofs, fields);
+    let history: Vec<f64> = (0..n).map(|i| -((i % 7) as f64) * 1e2).collect();
+    let laws = LawMap::uniform(lattice_law(), mesh.n_cells());
+    let mut swapped = vec![false; mesh.n_points()];
+    for node in mesh.boundary_nodes("left").unwrap() {
+        swapped[node] = true;
+    }
+    let run = |xs: &[f64], input: &CellInput<'_>, out: LocalOutput<'_>| {
+        let k = SwappedRows {
+            inner: CoupledKernel {
+                dofs: &dofs,
+                fields,
+                mode: GeometryMode::PlaneStrain,
+                laws: &laws,
+                rate: RateTerm {
+                    a0: 1e2,
+                    history: &history,
+                },
+                source: None,
+                solution: xs,
+            },
+            swap: RowSwap {
+                dofs: &dofs,
+                fields,
+                swapped: &swapped,
+            },
+        };
+        k.cell_into(input, &mut k.build_scratch(), out).unwrap();
+    };
+    let (worst, at) = tangent_error(&mesh, &dofs, fields, &x, run);
+    assert!(
+        worst < 1e-6,
+        "swapped rows: tangent differs from finite differences by {worst:e} at {at:?}"
+    );
+    // The swap did happen: the c-row of a left node now holds the potential equation, whose
+    // derivative with respect to that node's μ is the (positive) mass-matrix entry.
+    let (kind, nodes) = mesh.cell(0);
+    let rc = dofs.local_range(fields.c, kind);
+    let rm = dofs.local_range(fields.mu, kind);
+    assert!(swapped[nodes[0]], "local node 0 lies on the left edge");
+    let m = dofs.cell_dofs(0).len();
+    let mut ke = vec![0.0; m * m];
+    let coords: Vec<[f64; 3]> = nodes.iter().map(|&i| mesh.points[i]).collect();
+    run(
+        &x,
+        &CellInput {
+            id: 0,
+            kind,
+            nodes,
+            coords: &coords,
+            dofs: dofs.cell_dofs(0),
+        },
+        LocalOutput {
+            matrix: Some(&mut ke),
+            vector: None,
+        },
+    );
+    assert!(ke[rc.start * m + rm.start] > 0.0);
 }
 
 /// Run one backward-Euler step of a coupled problem from a uniform state.

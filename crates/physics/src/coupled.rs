@@ -9,9 +9,22 @@
 //! potential, flux and all their derivatives) comes from `dilata_material::coupled`; a
 //! concentration outside the law's range is returned as a recoverable error naming the cell.
 //! Boundary terms (tractions, inward species flux) are separate facet kernels.
+//!
+//! ## Prescribed chemical potential: the row swap
+//!
+//! Constraints replace the *row* of a constrained DOF by an identity. Where `μ` is prescribed,
+//! the equation to give up is the mass balance (the species flux through that node is the unknown
+//! reaction), while the potential equation must stay (it then fixes `c` there). [`SwappedRows`]
+//! wraps any cell or facet kernel and, at every node flagged in a [`RowSwap`], exchanges the
+//! node's `c`-row and `μ`-row of the local residual and tangent: the potential equation then sits
+//! in the kept `c`-row and the mass equation (with its facet fluxes) in the dropped `μ`-row. This
+//! needs the same interpolation order for `c` and `μ` (the same local node numbering).
 
 use dilata_fem::dofs::DofMap;
-use dilata_fem::{CellInput, CellKernel, FieldHandle, GeometryMode, InvertedCell, LocalOutput};
+use dilata_fem::{
+    CellInput, CellKernel, FacetInput, FacetKernel, FieldHandle, GeometryMode, InvertedCell,
+    LocalOutput,
+};
 use dilata_material::coupled::{CoupledPointLaw, PointInput};
 use dilata_material::elastic::Voigt;
 use dilata_material::error::RangeError;
@@ -276,6 +289,111 @@ impl CellKernel for CoupledKernel<'_> {
                 }
             }
         }
+        Ok(())
+    }
+}
+
+/// Nodes whose mass and potential rows are exchanged (see the module documentation).
+#[derive(Clone, Copy, Debug)]
+pub struct RowSwap<'a> {
+    pub dofs: &'a DofMap,
+    pub fields: CoupledFields,
+    /// One flag per mesh node: `true` where the node's `μ` DOF is constrained.
+    pub swapped: &'a [bool],
+}
+
+impl RowSwap<'_> {
+    /// Exchange the `c`- and `μ`-rows of the flagged nodes of a cell in its local output.
+    ///
+    /// # Panics
+    /// If `c` and `μ` have different interpolation orders (checked by the problem before any
+    /// assembly; reaching it here is a programmer error).
+    pub fn apply_into(&self, cell: &CellInput<'_>, out: LocalOutput<'_>) {
+        let rc = self.dofs.local_range(self.fields.c, cell.kind);
+        let rm = self.dofs.local_range(self.fields.mu, cell.kind);
+        assert_eq!(
+            rc.len(),
+            rm.len(),
+            "the row swap of a prescribed potential needs equal orders of c and mu"
+        );
+        let n = cell.dofs.len();
+        let LocalOutput {
+            mut matrix,
+            mut vector,
+        } = out;
+        for a in 0..rc.len() {
+            if !self.swapped[cell.nodes[a]] {
+                continue;
+            }
+            let (i, j) = (rc.start + a, rm.start + a);
+            if let Some(fe) = vector.as_deref_mut() {
+                fe.swap(i, j);
+            }
+            if let Some(ke) = matrix.as_deref_mut() {
+                for col in 0..n {
+                    ke.swap(i * n + col, j * n + col);
+                }
+            }
+        }
+    }
+}
+
+/// A cell or facet kernel whose output goes through a [`RowSwap`].
+pub struct SwappedRows<'a, K> {
+    pub inner: K,
+    pub swap: RowSwap<'a>,
+}
+
+impl<K: CellKernel> CellKernel for SwappedRows<'_, K> {
+    type Scratch = K::Scratch;
+    type Error = K::Error;
+
+    fn build_scratch(&self) -> K::Scratch {
+        self.inner.build_scratch()
+    }
+
+    fn cell_into(
+        &self,
+        input: &CellInput<'_>,
+        scratch: &mut K::Scratch,
+        mut out: LocalOutput<'_>,
+    ) -> Result<(), K::Error> {
+        self.inner.cell_into(
+            input,
+            scratch,
+            LocalOutput {
+                matrix: out.matrix.as_deref_mut(),
+                vector: out.vector.as_deref_mut(),
+            },
+        )?;
+        self.swap.apply_into(input, out);
+        Ok(())
+    }
+}
+
+impl<K: FacetKernel> FacetKernel for SwappedRows<'_, K> {
+    type Scratch = K::Scratch;
+    type Error = K::Error;
+
+    fn build_scratch(&self) -> K::Scratch {
+        self.inner.build_scratch()
+    }
+
+    fn facet_into(
+        &self,
+        input: &FacetInput<'_>,
+        scratch: &mut K::Scratch,
+        mut out: LocalOutput<'_>,
+    ) -> Result<(), K::Error> {
+        self.inner.facet_into(
+            input,
+            scratch,
+            LocalOutput {
+                matrix: out.matrix.as_deref_mut(),
+                vector: out.vector.as_deref_mut(),
+            },
+        )?;
+        self.swap.apply_into(&input.cell, out);
         Ok(())
     }
 }

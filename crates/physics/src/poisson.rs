@@ -1,7 +1,8 @@
 //! Scalar diffusion (Poisson) kernels: `−div(k grad u) = s` with boundary flux.
 //!
 //! Residual form: `r_a = ∫ k grad N_a · grad u dV − ∫ N_a s dV − ∫ N_a q̄ dA`, with `q̄` the
-//! inward boundary flux. The tangent is `K_ab = ∫ k grad N_a · grad N_b dV`.
+//! inward boundary flux. The tangent is `K_ab = ∫ k grad N_a · grad N_b dV`. The exchange
+//! (Robin) condition `q̄ = rate · (outside − u)` has its own facet kernel with its tangent.
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::quadrature::rule_for;
@@ -124,6 +125,73 @@ impl FacetKernel for FluxKernel<'_> {
                 // Facet node i is local cell node input.local_nodes[i].
                 let local = input.local_nodes[i];
                 fe[range.start + local] -= val * flux * fv.jxw[q];
+            }
+        }
+        Ok(())
+    }
+}
+
+/// Boundary kernel of an exchange (Robin) condition: inward flux `rate · (outside − u)` on
+/// facets, with `rate` in m/s for a species (a film or surface-reaction coefficient) and
+/// `outside` the value of the field outside the body.
+///
+/// Residual: `r_a −= ∫ N_a rate (outside − u) dA`; tangent: `K_ab += ∫ N_a rate N_b dA`.
+pub struct ExchangeKernel<'a> {
+    pub dofs: &'a DofMap,
+    pub field: FieldHandle,
+    pub mode: GeometryMode,
+    pub rate: f64,
+    pub outside: f64,
+    /// Current solution (global vector); `u` on the facet is read from it.
+    pub solution: &'a [f64],
+}
+
+impl FacetKernel for ExchangeKernel<'_> {
+    type Scratch = Vec<FacetValues>;
+    type Error = std::convert::Infallible;
+
+    fn build_scratch(&self) -> Vec<FacetValues> {
+        Vec::new()
+    }
+
+    fn facet_into(
+        &self,
+        input: &FacetInput<'_>,
+        cache: &mut Vec<FacetValues>,
+        out: LocalOutput<'_>,
+    ) -> Result<(), Self::Error> {
+        let order = self.dofs.spec(self.field).order;
+        let fk = input.facet_kind;
+        let fsk = space_kind(fk, order).unwrap_or(fk.linear());
+        let fv = facet_values(cache, fk, self.mode, fsk);
+        fv.reinit(input.facet_coords);
+        let range = self.dofs.local_range(self.field, input.cell.kind);
+        let n_loc = input.cell.dofs.len();
+        let LocalOutput {
+            mut matrix,
+            mut vector,
+        } = out;
+        for q in 0..fv.n_points() {
+            let nv = fv.spaces[0].values_at(q);
+            let w = fv.jxw[q];
+            let row = |i: usize| range.start + input.local_nodes[i];
+            let u: f64 = nv
+                .iter()
+                .enumerate()
+                .map(|(i, &v)| v * self.solution[input.cell.dofs[row(i)]])
+                .sum();
+            if let Some(fe) = vector.as_deref_mut() {
+                let flux = self.rate * (self.outside - u);
+                for (i, &v) in nv.iter().enumerate() {
+                    fe[row(i)] -= v * flux * w;
+                }
+            }
+            if let Some(ke) = matrix.as_deref_mut() {
+                for (i, &vi) in nv.iter().enumerate() {
+                    for (j, &vj) in nv.iter().enumerate() {
+                        ke[row(i) * n_loc + row(j)] += vi * self.rate * vj * w;
+                    }
+                }
             }
         }
         Ok(())
