@@ -3,6 +3,11 @@
 //! Owns the DOF map of the three fields (`u`, `c`, `μ`), the assembler, the constraints and the
 //! point law; implements [`TransientSystem`] so that the generic integrator of
 //! [`crate::time`] drives it.
+//!
+//! Boundary data may depend on time through [`CoupledProblem::boundary_update`], called at the
+//! start of every attempted step. A prescribed potential (a constraint on `μ`) replaces the mass
+//! equation at its nodes, not the potential equation (see `dilata_physics::coupled`, "the row
+//! swap"); [`CoupledProblem::mass_rates`] reports the discrete mass balance of a solved step.
 
 use std::sync::Arc;
 
@@ -10,11 +15,59 @@ use dilata_fem::dofs::DofMap;
 use dilata_fem::{Assembler, AssemblyTarget, Constraints, GeometryMode, Parallelism};
 use dilata_linalg::{CsrMatrix, CsrPattern};
 use dilata_mesh::{Facet, Mesh};
-use dilata_physics::coupled::{CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm};
+use dilata_physics::coupled::{
+    CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
+};
+use dilata_physics::norms::field_integral;
+use dilata_physics::poisson::PoissonKernel;
 
 use crate::newton::DiscreteSystem;
-use crate::problem::{add_loads, BoundaryLoad, BoxScalarFn, LoadContext};
+use crate::problem::{add_loads, BoundaryLoad, LoadContext};
 use crate::time::TransientSystem;
+
+/// Callback that updates boundary data to the end time of a step: called with that time, the
+/// boundary loads and the constraints (change values with `Constraints::set_group_value` and
+/// friends, or replace loads whose magnitude depends on time).
+pub type BoundaryUpdate =
+    Box<dyn FnMut(f64, &mut [(Vec<Facet>, BoundaryLoad)], &mut Constraints) + Send>;
+
+/// A volumetric source density `s(x, t)` in mol/(m³ s).
+pub type BoxTimedScalarFn = Box<dyn Fn([f64; 3], f64) -> f64 + Sync + Send>;
+
+/// Why a coupled problem cannot be solved as set up (a bug of the input).
+#[derive(Clone, Debug, PartialEq, Eq, thiserror::Error)]
+pub enum CoupledSetupError {
+    #[error(
+        "the chemical potential is prescribed at {n_nodes} node(s) (first: mesh node \
+         {first_node}); this needs c and mu of the same interpolation order, got c of order \
+         {c_order} and mu of order {mu_order}"
+    )]
+    PotentialNeedsEqualOrders {
+        n_nodes: usize,
+        first_node: usize,
+        c_order: usize,
+        mu_order: usize,
+    },
+}
+
+/// Discrete mass balance of the current step (mol/s, per unit thickness in plane modes, over the
+/// full revolution in axisymmetry), from [`CoupledProblem::mass_rates`].
+///
+/// `amount_rate = supplied + reaction + imbalance` holds to round-off by construction (the test
+/// functions of the mass equation sum to one).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct MassRates {
+    /// `∫ (a0 c + h) dV`: the integrator's rate of the total amount.
+    pub amount_rate: f64,
+    /// `∫ s dV` plus the inward facet fluxes and exchange fluxes.
+    pub supplied: f64,
+    /// Inflow through the nodes whose mass equation is replaced by a constraint (prescribed `c`
+    /// or prescribed `μ`): the reaction of the prescribed values.
+    pub reaction: f64,
+    /// Sum of the mass-equation residual over the nodes where it is enforced: zero for an exact
+    /// solve, a measure of how well Newton satisfied the discrete balance.
+    pub imbalance: f64,
+}
 
 /// A coupled problem on one mesh.
 pub struct CoupledProblem<'m> {
@@ -23,17 +76,26 @@ pub struct CoupledProblem<'m> {
     pub fields: CoupledFields,
     pub mode: GeometryMode,
     pub assembler: Assembler,
+    /// Prescribed values. Constraining `μ` at a node drops that node's mass equation (the row
+    /// swap); the driver may replace the whole object between stages.
     pub constraints: Constraints,
     /// Point law of every cell.
     pub laws: LawMap,
-    /// Boundary loads: `Flux` acts on the concentration (inward species flux, mol/(m² s)),
-    /// `Traction` and `Pressure` on the displacement.
+    /// Boundary loads: `Flux` and `Exchange` act on the concentration (inward species flux,
+    /// mol/(m² s)), `Traction` and `Pressure` on the displacement.
     pub loads: Vec<(Vec<Facet>, BoundaryLoad)>,
-    pub source: Option<BoxScalarFn>,
+    /// Volumetric source `s(x, t)`, evaluated at the end time of the step.
+    pub source: Option<BoxTimedScalarFn>,
+    /// Called by `begin_step(t_new, ..)` before anything else, for every attempted step
+    /// (including retried, cut steps), so that time tables are evaluated at `t_new`.
+    pub boundary_update: Option<BoundaryUpdate>,
     time: f64,
     a0: f64,
     history: Vec<f64>,
     zero_increments: Vec<f64>,
+    /// Per mesh node: whether its `μ` DOF is constrained (rows swapped).
+    swapped: Vec<bool>,
+    n_swapped: usize,
 }
 
 impl<'m> CoupledProblem<'m> {
@@ -58,10 +120,13 @@ impl<'m> CoupledProblem<'m> {
             laws,
             loads: Vec::new(),
             source: None,
+            boundary_update: None,
             time: 0.0,
             a0: 0.0,
             history: vec![0.0; n],
             zero_increments: Vec::new(),
+            swapped: vec![false; mesh.n_points()],
+            n_swapped: 0,
         }
     }
 
@@ -70,21 +135,82 @@ impl<'m> CoupledProblem<'m> {
         self.time
     }
 
+    /// Check that the current constraints can be solved: a prescribed potential needs `c` and
+    /// `μ` of the same order. A driver calls this after setting or replacing the constraints;
+    /// assembling with such constraints unchecked panics (a programmer error).
+    pub fn check_setup(&self) -> Result<(), CoupledSetupError> {
+        let (c_order, mu_order) = (
+            self.dofs.spec(self.fields.c).order,
+            self.dofs.spec(self.fields.mu).order,
+        );
+        if c_order == mu_order {
+            return Ok(());
+        }
+        let nodes: Vec<usize> = self
+            .dofs
+            .field_nodes(self.fields.mu)
+            .into_iter()
+            .filter(|&n| self.mu_constrained(n))
+            .collect();
+        match nodes.first() {
+            None => Ok(()),
+            Some(&first_node) => Err(CoupledSetupError::PotentialNeedsEqualOrders {
+                n_nodes: nodes.len(),
+                first_node,
+                c_order,
+                mu_order,
+            }),
+        }
+    }
+
+    fn mu_constrained(&self, node: usize) -> bool {
+        let d = self
+            .dofs
+            .node_dof(self.fields.mu, node, 0)
+            .expect("node carries mu");
+        self.constraints.is_constrained(d)
+    }
+
+    /// Recompute the per-node swap flags from the constraints (cheap; done every assembly since
+    /// the constraints are a public field).
+    fn refresh_swap(&mut self) {
+        self.swapped.iter_mut().for_each(|s| *s = false);
+        self.n_swapped = 0;
+        for node in self.dofs.field_nodes(self.fields.mu) {
+            if self.mu_constrained(node) {
+                self.swapped[node] = true;
+                self.n_swapped += 1;
+            }
+        }
+        if self.n_swapped > 0 {
+            if let Err(e) = self.check_setup() {
+                panic!("coupled problem assembled without check_setup: {e}");
+            }
+        }
+    }
+
+    /// Assemble the residual (and tangent) at `x`, with the constraints' scatter when
+    /// `constrained`, and with the row swap where `μ` is constrained.
     fn assemble(
         &mut self,
         x: &[f64],
         matrix: Option<&mut CsrMatrix>,
         residual: &mut [f64],
+        constrained: bool,
     ) -> Result<(), CoupledError> {
+        self.refresh_swap();
         self.zero_increments.clear();
         self.zero_increments
             .resize(self.constraints.n_constrained(), 0.0);
         let mut target = AssemblyTarget {
             matrix,
             vector: Some(residual),
-            constraints: Some((&self.constraints, &self.zero_increments)),
+            constraints: constrained.then_some((&self.constraints, &self.zero_increments[..])),
         };
         self.assembler.begin(&mut target);
+        let t = self.time;
+        let timed = self.source.as_ref();
+        let source = move |p: [f64; 3]| timed.map_or(0.0, |f| f(p, t));
         let kernel = CoupledKernel {
             dofs: &self.dofs,
             fields: self.fields,
@@ -94,14 +220,28 @@ impl<'m> CoupledProblem<'m> {
                 a0: self.a0,
                 history: &self.history,
             },
-            source: self
-                .source
-                .as_ref()
-                .map(|f| f.as_ref() as &(dyn Fn([f64; 3]) -> f64 + Sync)),
+            source: self.source.as_ref().map(|_| &source as _),
             solution: x,
         };
-        self.assembler
-            .add_cells(self.mesh, &self.dofs, &kernel, &mut target)?;
+        let swap = (self.n_swapped > 0).then_some(RowSwap {
+            dofs: &self.dofs,
+            fields: self.fields,
+            swapped: &self.swapped,
+        });
+        match swap {
+            Some(swap) => self.assembler.add_cells(
+                self.mesh,
+                &self.dofs,
+                &SwappedRows {
+                    inner: kernel,
+                    swap,
+                },
+                &mut target,
+            )?,
+            None => self
+                .assembler
+                .add_cells(self.mesh, &self.dofs, &kernel, &mut target)?,
+        }
         add_loads(
             &LoadContext {
                 mesh: self.mesh,
@@ -110,12 +250,98 @@ impl<'m> CoupledProblem<'m> {
                 mode: self.mode,
                 flux_field: self.fields.c,
                 displacement_field: self.fields.u,
+                solution: x,
+                swap,
             },
             &self.loads,
             &mut target,
         );
         self.assembler.finish(&mut target);
         Ok(())
+    }
+
+    /// Mass balance of the current step at the solution `x`: call after `begin_step` and a
+    /// converged Newton solve of that step (e.g. right after `Integrator::step` with the
+    /// integrator's new state).
+    ///
+    /// * `amount_rate = ∫ (a0 c + h) dV`, the rate of the total amount with the integrator's
+    ///   rate term (for backward Euler: the amount change over the step divided by `Δt`);
+    /// * `supplied = ∫ s dV + Σ` inward facet fluxes and exchange fluxes;
+    /// * `reaction`: the mass-equation residual, assembled without constraints, summed over the
+    ///   nodes whose mass equation a constraint replaces (prescribed `c` or prescribed `μ`):
+    ///   the inflow the prescribed values draw;
+    /// * `imbalance`: the same sum over the nodes where the mass equation is enforced.
+    ///
+    /// The residual of node `a`'s mass equation is `∫ N_a ċ dV + ∫ ∇N_a · M∇μ dV − ∫ N_a s dV −
+    /// ∫ N_a j̄ dA`; since `Σ_a N_a = 1` the sum over all nodes is `amount_rate − supplied`, so
+    /// `amount_rate = supplied + reaction + imbalance` holds to round-off. All integrals use the
+    /// kernels' quadrature.
+    pub fn mass_rates(&mut self, x: &[f64]) -> Result<MassRates, CoupledError> {
+        let n = self.dofs.n_dofs();
+        let mut r = vec![0.0; n];
+        self.assemble(x, None, &mut r, false)?;
+        let (fc, fm) = (self.fields.c, self.fields.mu);
+        let (mut reaction, mut imbalance) = (0.0, 0.0);
+        for node in self.dofs.field_nodes(fc) {
+            let dc = self.dofs.node_dof(fc, node, 0).expect("node carries c");
+            let (row, dropped) = if self.swapped[node] {
+                let dm = self.dofs.node_dof(fm, node, 0).expect("swap implies mu");
+                (dm, true)
+            } else {
+                (dc, self.constraints.is_constrained(dc))
+            };
+            if dropped {
+                reaction += r[row];
+            } else {
+                imbalance += r[row];
+            }
+        }
+        // Rate of the amount.
+        let rate: Vec<f64> = (0..n).map(|i| self.a0 * x[i] + self.history[i]).collect();
+        let amount_rate = field_integral(self.mesh, &self.dofs, fc, self.mode, &rate)?;
+        // Supply: the loads and the source alone, summed over the mass rows.
+        let mut v = vec![0.0; n];
+        let mut target = AssemblyTarget {
+            matrix: None,
+            vector: Some(&mut v),
+            constraints: None,
+        };
+        self.assembler.begin(&mut target);
+        if let Some(f) = self.source.as_ref() {
+            let t = self.time;
+            let source = move |p: [f64; 3]| f(p, t);
+            let kernel = PoissonKernel {
+                dofs: &self.dofs,
+                field: fc,
+                mode: self.mode,
+                conductivity: 0.0,
+                source: Some(&source),
+                solution: x,
+            };
+            self.assembler
+                .add_cells(self.mesh, &self.dofs, &kernel, &mut target)?;
+        }
+        add_loads(
+            &LoadContext {
+                mesh: self.mesh,
+                dofs: &self.dofs,
+                assembler: &self.assembler,
+                mode: self.mode,
+                flux_field: fc,
+                displacement_field: self.fields.u,
+                solution: x,
+                swap: None,
+            },
+            &self.loads,
+            &mut target,
+        );
+        let supplied = -self.dofs.field_range(fc).map(|i| v[i]).sum::<f64>();
+        Ok(MassRates {
+            amount_rate,
+            supplied,
+            reaction,
+            imbalance,
+        })
     }
 }
 
@@ -140,11 +366,11 @@ impl DiscreteSystem for CoupledProblem<'_> {
         jacobian: &mut CsrMatrix,
         residual: &mut [f64],
     ) -> Result<(), CoupledError> {
-        self.assemble(x, Some(jacobian), residual)
+        self.assemble(x, Some(jacobian), residual, true)
     }
 
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), CoupledError> {
-        self.assemble(x, None, residual)
+        self.assemble(x, None, residual, true)
     }
 
     /// Floors of the step test: the body's size for displacements (a correction of 1e-12 of the
@@ -174,7 +400,11 @@ impl DiscreteSystem for CoupledProblem<'_> {
 }
 
 impl TransientSystem for CoupledProblem<'_> {
+    /// Runs [`CoupledProblem::boundary_update`] at `t_new` first, then stores the rate term.
     fn begin_step(&mut self, t_new: f64, a0: f64, history: &[f64]) {
+        if let Some(update) = self.boundary_update.as_mut() {
+            update(t_new, &mut self.loads, &mut self.constraints);
+        }
         self.time = t_new;
         self.a0 = a0;
         self.history.copy_from_slice(history);

@@ -5,6 +5,8 @@
 //! integration and loading programs join it as the coupled problems arrive.
 
 pub mod coupled;
+
+pub use coupled::{BoundaryUpdate, BoxTimedScalarFn, CoupledProblem, CoupledSetupError, MassRates};
 pub mod newton;
 
 pub use newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};

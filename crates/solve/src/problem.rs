@@ -7,12 +7,15 @@
 use std::sync::Arc;
 
 use dilata_fem::dofs::DofMap;
-use dilata_fem::{Assembler, AssemblyTarget, Constraints, FieldHandle, GeometryMode, InvertedCell};
+use dilata_fem::{
+    Assembler, AssemblyTarget, Constraints, FacetKernel, FieldHandle, GeometryMode, InvertedCell,
+};
 use dilata_linalg::{CsrMatrix, CsrPattern};
 use dilata_material::elastic::Stiffness;
 use dilata_mesh::{Facet, Mesh};
+use dilata_physics::coupled::{RowSwap, SwappedRows};
 use dilata_physics::elasticity::{ElasticityKernel, SurfaceLoad, SurfaceLoadKernel};
-use dilata_physics::poisson::{FluxKernel, PoissonKernel};
+use dilata_physics::poisson::{ExchangeKernel, FluxKernel, PoissonKernel};
 
 use crate::newton::DiscreteSystem;
 
@@ -43,6 +46,10 @@ pub enum BoundaryLoad {
     Traction(BoxVectorFn),
     /// Pressure, positive into the body (elasticity).
     Pressure(f64),
+    /// Exchange (Robin) condition: inward flux `rate · (outside − c)` of the scalar (the species
+    /// in a coupled problem, `rate` in m/s and `outside` in mol/m³; the diffused quantity in a
+    /// diffusion problem). Contributes to the tangent.
+    Exchange { rate: f64, outside: f64 },
 }
 
 /// A single-field static problem on one mesh.
@@ -142,6 +149,8 @@ impl<'m> FieldProblem<'m> {
                 mode: self.mode,
                 flux_field: self.field,
                 displacement_field: self.field,
+                solution: x,
+                swap: None,
             },
             &self.loads,
             &mut target,
@@ -181,7 +190,8 @@ impl DiscreteSystem for FieldProblem<'_> {
 }
 
 /// Where boundary loads go: the field that receives species fluxes and the one that receives
-/// tractions and pressure (the same field in a single-field problem).
+/// tractions and pressure (the same field in a single-field problem), the current solution (read
+/// by exchange conditions) and the row swap of a coupled problem with a prescribed potential.
 pub(crate) struct LoadContext<'a> {
     pub mesh: &'a Mesh,
     pub dofs: &'a DofMap,
@@ -189,6 +199,36 @@ pub(crate) struct LoadContext<'a> {
     pub mode: GeometryMode,
     pub flux_field: FieldHandle,
     pub displacement_field: FieldHandle,
+    pub solution: &'a [f64],
+    pub swap: Option<RowSwap<'a>>,
+}
+
+/// Add one facet kernel's contributions, through the row swap when there is one.
+fn add_facet_kernel<K: FacetKernel<Error = std::convert::Infallible>>(
+    ctx: &LoadContext<'_>,
+    facets: &[Facet],
+    kernel: K,
+    target: &mut AssemblyTarget<'_>,
+) {
+    let result = match ctx.swap {
+        Some(swap) => ctx.assembler.add_facets(
+            ctx.mesh,
+            ctx.dofs,
+            facets,
+            &SwappedRows {
+                inner: kernel,
+                swap,
+            },
+            target,
+        ),
+        None => ctx
+            .assembler
+            .add_facets(ctx.mesh, ctx.dofs, facets, &kernel, target),
+    };
+    match result {
+        Ok(()) => {}
+        Err(never) => match never {},
+    }
 }
 
 /// Add every boundary load's facet contributions to `target`.
@@ -198,41 +238,53 @@ pub(crate) fn add_loads(
     target: &mut AssemblyTarget<'_>,
 ) {
     for (facets, load) in loads {
-        let result = match load {
-            BoundaryLoad::Flux(f) => {
-                let k = FluxKernel {
+        match load {
+            BoundaryLoad::Flux(f) => add_facet_kernel(
+                ctx,
+                facets,
+                FluxKernel {
                     dofs: ctx.dofs,
                     field: ctx.flux_field,
                     mode: ctx.mode,
                     inward_flux: f.as_ref(),
-                };
-                ctx.assembler
-                    .add_facets(ctx.mesh, ctx.dofs, facets, &k, target)
-            }
-            BoundaryLoad::Traction(f) => {
-                let k = SurfaceLoadKernel {
+                },
+                target,
+            ),
+            BoundaryLoad::Exchange { rate, outside } => add_facet_kernel(
+                ctx,
+                facets,
+                ExchangeKernel {
+                    dofs: ctx.dofs,
+                    field: ctx.flux_field,
+                    mode: ctx.mode,
+                    rate: *rate,
+                    outside: *outside,
+                    solution: ctx.solution,
+                },
+                target,
+            ),
+            BoundaryLoad::Traction(f) => add_facet_kernel(
+                ctx,
+                facets,
+                SurfaceLoadKernel {
                     dofs: ctx.dofs,
                     field: ctx.displacement_field,
                     mode: ctx.mode,
                     load: SurfaceLoad::Traction(f.as_ref()),
-                };
-                ctx.assembler
-                    .add_facets(ctx.mesh, ctx.dofs, facets, &k, target)
-            }
-            BoundaryLoad::Pressure(p) => {
-                let k = SurfaceLoadKernel {
+                },
+                target,
+            ),
+            BoundaryLoad::Pressure(p) => add_facet_kernel(
+                ctx,
+                facets,
+                SurfaceLoadKernel {
                     dofs: ctx.dofs,
                     field: ctx.displacement_field,
                     mode: ctx.mode,
                     load: SurfaceLoad::Pressure(*p),
-                };
-                ctx.assembler
-                    .add_facets(ctx.mesh, ctx.dofs, facets, &k, target)
-            }
-        };
-        match result {
-            Ok(()) => {}
-            Err(never) => match never {},
+                },
+                target,
+            ),
         }
     }
 }
