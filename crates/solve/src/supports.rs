@@ -115,6 +115,12 @@ pub fn pin_rigid_modes(
         return Ok(Vec::new());
     }
     let nodes = body.dofs.field_nodes(body.u_field);
+    if nodes.is_empty() {
+        return Err(UnpinnedModes {
+            free: "all (the displacement field has no nodes)".to_string(),
+            placed: 0,
+        });
+    }
     let a = farthest(&nodes, body.mesh, |x| dist2(x, frame.centre));
     let pa = body.mesh.points[a];
     let b = farthest(&nodes, body.mesh, |x| dist2(x, pa));
@@ -152,11 +158,13 @@ pub fn pin_rigid_modes(
 
 /// Null-space test. Mode columns are scaled so that a translation moves every node by 1 and a
 /// rotation moves a node by its distance from the centroid divided by the body size L (the
-/// largest such distance), so every column is O(1) whatever the units. `G = AᵀA` (A: modes at
-/// the constrained DOFs) has eigenvalue `σ²` for each singular value `σ` of A; a direction is
-/// free when `σ² <= NULL_TOLERANCE · σ_max²`, i.e. `σ <= 1e-6 σ_max`. Round-off in G's
-/// eigenvalues is about `1e-16 σ_max²`, four orders below the threshold; a support that blocks a
-/// rotation with a lever arm below about `1e-6 L` (per unit of `σ_max`) does not count.
+/// largest such distance), so every column is O(1) whatever the units of the mesh. `G = AᵀA`
+/// (A: the modes at the constrained DOFs) has eigenvalue `σ²` for each singular value `σ` of A;
+/// a direction is free when `σ² <= NULL_TOLERANCE · σ_max²`, i.e. when the constraints stop it
+/// less than 1e-6 times as strongly as the best-stopped direction (with a single constrained
+/// node, `σ_max` is of order one: a rotation stopped only through a lever arm under about
+/// 1e-6 L counts as free). Round-off in G's eigenvalues is about `1e-16 σ_max²`, four orders
+/// below the threshold, so exact zeros are never taken for stopped directions.
 const NULL_TOLERANCE: f64 = 1e-12;
 
 /// Independence test of orthonormalised rows (entries of order one): a residual below this is
