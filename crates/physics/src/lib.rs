@@ -6,6 +6,7 @@
 
 pub mod cellcache;
 pub mod coupled;
+pub mod coupled_post;
 pub mod elasticity;
 pub mod norms;
 pub mod poisson;

@@ -7,6 +7,7 @@
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::quadrature::QuadratureRule;
+use dilata_fem::values::SpaceValues;
 use dilata_fem::{CellValues, FieldHandle, GeometryMode, InvertedCell};
 use dilata_material::elastic::{Stiffness, Voigt};
 use dilata_mesh::{CellKind, Mesh};
@@ -38,7 +39,7 @@ pub fn recover_nodal_stress(
         let pos = match cache.iter().position(|c| c.kind == kind) {
             Some(p) => p,
             None => {
-                cache.push(nodal_values(kind, r.mode, order));
+                cache.push(nodal_values(kind, r.mode, &[order]));
                 cache.len() - 1
             }
         };
@@ -49,25 +50,9 @@ pub fn recover_nodal_stress(
         u.clear();
         u.extend(r.dofs.cell_dofs(id)[range].iter().map(|&d| r.solution[d]));
         let sv = &cv.spaces[0];
+        let size = cell_size(&coords);
         for (q, &node) in nodes.iter().enumerate() {
-            let radius = cv.points[q][0];
-            let eps = if r.mode == GeometryMode::Axisymmetric
-                && radius.abs() < 1e-12 * cell_size(&coords)
-            {
-                // On the axis u_r/r → ∂u_r/∂r (L'Hôpital); use the radial strain for the hoop.
-                let mut e = strain_at(
-                    GeometryMode::PlaneStrain,
-                    sv.grads(q),
-                    sv.values(q),
-                    1.0,
-                    &u,
-                    nc,
-                );
-                e[2] = e[0];
-                e
-            } else {
-                strain_at(r.mode, sv.grads(q), sv.values(q), radius, &u, nc)
-            };
+            let eps = nodal_strain(r.mode, sv, q, cv.points[q][0], size, &u, nc);
             sum[node] += r.stiffness * eps;
             count[node] += 1;
         }
@@ -80,7 +65,37 @@ pub fn recover_nodal_stress(
     Ok(sum)
 }
 
-fn cell_size(coords: &[[f64; 3]]) -> f64 {
+/// Strain at node `q` of a cell whose values were tabulated at its own nodes
+/// ([`nodal_values`]). In axisymmetry a node on the axis (`|r| < 1e-12 · size`) takes the limit
+/// of the hoop strain: `u_r / r → ∂u_r/∂r` (L'Hôpital, `u_r = 0` on the axis).
+pub(crate) fn nodal_strain(
+    mode: GeometryMode,
+    sv: &SpaceValues,
+    q: usize,
+    radius: f64,
+    size: f64,
+    u: &[f64],
+    nc: usize,
+) -> Voigt {
+    if mode == GeometryMode::Axisymmetric && radius.abs() < 1e-12 * size {
+        // Use the radial strain for the hoop.
+        let mut e = strain_at(
+            GeometryMode::PlaneStrain,
+            sv.grads(q),
+            sv.values(q),
+            1.0,
+            u,
+            nc,
+        );
+        e[2] = e[0];
+        e
+    } else {
+        strain_at(mode, sv.grads(q), sv.values(q), radius, u, nc)
+    }
+}
+
+/// Largest taxicab distance between two nodes of a cell (its size, for relative tests).
+pub(crate) fn cell_size(coords: &[[f64; 3]]) -> f64 {
     let mut m: f64 = 0.0;
     for p in coords {
         for q in coords {
@@ -90,8 +105,9 @@ fn cell_size(coords: &[[f64; 3]]) -> f64 {
     m
 }
 
-/// Cell values whose "quadrature points" are the cell's own reference nodes.
-fn nodal_values(kind: CellKind, mode: GeometryMode, order: usize) -> CellValues {
+/// Cell values whose "quadrature points" are the cell's own reference nodes, with one space per
+/// entry of `orders` (field interpolation orders, in the caller's order).
+pub(crate) fn nodal_values(kind: CellKind, mode: GeometryMode, orders: &[usize]) -> CellValues {
     let points = kind.reference_nodes();
     let n = points.len();
     let rule = QuadratureRule {
@@ -100,6 +116,9 @@ fn nodal_values(kind: CellKind, mode: GeometryMode, order: usize) -> CellValues 
         degree: 0,
         source: "cell nodes (evaluation only)",
     };
-    let space = dilata_fem::values::space_kind(kind, order).expect("validated by the DOF map");
-    CellValues::new(kind, mode, rule, &[space])
+    let spaces: Vec<CellKind> = orders
+        .iter()
+        .map(|&o| dilata_fem::values::space_kind(kind, o).expect("validated by the DOF map"))
+        .collect();
+    CellValues::new(kind, mode, rule, &spaces)
 }

@@ -13,6 +13,7 @@ pub use newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
 pub mod problem;
 
 pub use problem::{BoundaryLoad, BulkLaw, FieldProblem};
+pub mod supports;
 pub mod time;
 
 pub use time::{

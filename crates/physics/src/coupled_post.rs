@@ -1,0 +1,348 @@
+//! Derived quantities of the coupled deformation–diffusion problem, for output and histories:
+//! nodal stress and flux, nodal stress invariants, volume integrals (volume, amount of species,
+//! elastic and chemical energy) and area-weighted means over boundary facets.
+//!
+//! Everything is evaluated with the coupled point law of each cell ([`LawMap`]), exactly as the
+//! coupled kernel does: the strain of the geometry mode (`ε_zz = 0` in plane strain and plane
+//! stress, where a plane-stress law carries the condensed stiffness and returns `σ_zz = 0`; hoop
+//! strain `u_r / r` in axisymmetry), the interpolated concentration and the gradient of the
+//! potential field. The swelling eigenstrain therefore enters the stress.
+//!
+//! ```no_run
+//! # use dilata_mesh::Mesh;
+//! # use dilata_fem::{dofs::DofMap, GeometryMode};
+//! # use dilata_physics::coupled::{CoupledFields, LawMap};
+//! use dilata_physics::coupled_post::{
+//!     build_nodal_invariants, coupled_integrals, recover_coupled_nodal, CoupledPost,
+//! };
+//! # fn demo(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, laws: &LawMap, x: &[f64])
+//! # -> Result<(), Box<dyn std::error::Error>> {
+//! let post = CoupledPost { dofs, fields, mode: GeometryMode::ThreeD, laws, solution: x };
+//! let nodal = recover_coupled_nodal(mesh, &post)?;
+//! let invariants = build_nodal_invariants(&nodal.stress);
+//! let totals = coupled_integrals(mesh, &post)?;
+//! println!("{} {}", invariants.von_mises[0], totals.amount);
+//! # Ok(()) }
+//! ```
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::values::space_kind;
+use dilata_fem::{CellValues, FieldHandle, GeometryMode};
+use dilata_material::coupled::{PointInput, PointOutput};
+use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
+use dilata_mesh::{Facet, Mesh};
+use nalgebra::Vector3;
+
+use crate::cellcache::{stiffness_degree, CellValuesCache};
+use crate::coupled::{CoupledError, CoupledFields, LawMap};
+use crate::elasticity::strain_at;
+use crate::poisson::facet_values;
+use crate::recovery::{cell_size, nodal_strain, nodal_values};
+
+/// The state of a coupled problem to post-process.
+#[derive(Clone, Copy, Debug)]
+pub struct CoupledPost<'a> {
+    /// DOF map holding the three fields.
+    pub dofs: &'a DofMap,
+    /// Handles of `u`, `c` and `μ` in `dofs`.
+    pub fields: CoupledFields,
+    /// Geometry mode of the problem.
+    pub mode: GeometryMode,
+    /// Point law of every cell (the one the problem was solved with).
+    pub laws: &'a LawMap,
+    /// Global solution vector.
+    pub solution: &'a [f64],
+}
+
+/// Nodal values of the coupled problem, one entry per mesh node.
+#[derive(Clone, Debug, PartialEq)]
+pub struct CoupledNodal {
+    /// Cauchy stress in Pa (Voigt `[xx, yy, zz, xy, yz, xz]`).
+    pub stress: Vec<Voigt>,
+    /// Species flux `J = −M grad μ` in mol/(m² s).
+    pub flux: Vec<[f64; 3]>,
+}
+
+/// Scalar invariants of nodal stresses, one entry per node.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct NodalInvariants {
+    /// Hydrostatic stress `tr σ / 3` in Pa.
+    pub hydrostatic: Vec<f64>,
+    /// von Mises equivalent stress in Pa.
+    pub von_mises: Vec<f64>,
+    /// Largest principal stress in Pa.
+    pub max_principal: Vec<f64>,
+}
+
+/// Volume integrals of the coupled state (with the `2πr` weight in axisymmetry, so they are
+/// totals over the body of revolution; per unit thickness in plane strain and plane stress).
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct CoupledIntegrals {
+    /// `∫ dV` in m³.
+    pub volume: f64,
+    /// Amount of species `∫ c dV` in mol.
+    pub amount: f64,
+    /// Elastic energy `∫ ½(ε − ε_c):C:(ε − ε_c) dV` in J.
+    pub elastic_energy: f64,
+    /// Chemical free energy `∫ ψ_chem(c) dV` in J.
+    pub chemical_energy: f64,
+}
+
+/// Nodal stress and flux by the projection of [`crate::recovery`]: every cell evaluates the
+/// coupled point law at its own nodes (strain from its displacement gradients, concentration and
+/// potential gradient interpolated in the cell), and a node's value is the unweighted mean over
+/// the cells sharing it. On the axis of an axisymmetric model the hoop strain takes its limit
+/// `∂u_r/∂r`. Nodes in no cell get zeros.
+///
+/// Errors: an inverted cell, or a concentration outside the range of the law at a cell node
+/// ([`CoupledError::Range`], whose `point` is then the local node index).
+pub fn recover_coupled_nodal(
+    mesh: &Mesh,
+    post: &CoupledPost<'_>,
+) -> Result<CoupledNodal, CoupledError> {
+    let n = mesh.n_points();
+    let mut stress = vec![Voigt::zeros(); n];
+    let mut flux = vec![[0.0; 3]; n];
+    let mut count = vec![0u32; n];
+    let orders = field_orders(post);
+    let nc = post.dofs.spec(post.fields.u).n_components;
+    let mut cache: Vec<CellValues> = Vec::new();
+    let mut local = LocalFields::default();
+    let mut coords = Vec::new();
+    for (id, kind, nodes) in mesh.cells() {
+        let pos = match cache.iter().position(|c| c.kind == kind) {
+            Some(p) => p,
+            None => {
+                cache.push(nodal_values(kind, post.mode, &orders));
+                cache.len() - 1
+            }
+        };
+        let cv = &mut cache[pos];
+        coords.clear();
+        coords.extend(nodes.iter().map(|&p| mesh.points[p]));
+        cv.reinit(id, &coords)?;
+        local.gather(post, id, kind);
+        let size = cell_size(&coords);
+        let law = post.laws.law(id);
+        for (q, &node) in nodes.iter().enumerate() {
+            let strain = nodal_strain(
+                post.mode,
+                &cv.spaces[0],
+                q,
+                cv.points[q][0],
+                size,
+                &local.u,
+                nc,
+            );
+            let (c, grad_mu) = local.scalars_at(cv, q);
+            let out = law
+                .evaluate(&PointInput { strain, c, grad_mu })
+                .map_err(|source| CoupledError::Range {
+                    cell: id,
+                    point: q,
+                    source,
+                })?;
+            stress[node] += out.stress;
+            for d in 0..3 {
+                flux[node][d] += out.flux[d];
+            }
+            count[node] += 1;
+        }
+    }
+    for ((s, f), &k) in stress.iter_mut().zip(&mut flux).zip(&count) {
+        if k > 0 {
+            let inv = 1.0 / k as f64;
+            *s *= inv;
+            for v in f.iter_mut() {
+                *v *= inv;
+            }
+        }
+    }
+    Ok(CoupledNodal { stress, flux })
+}
+
+/// Hydrostatic, von Mises and largest principal stress of every entry of `stress`.
+pub fn build_nodal_invariants(stress: &[Voigt]) -> NodalInvariants {
+    NodalInvariants {
+        hydrostatic: stress.iter().map(hydrostatic).collect(),
+        von_mises: stress.iter().map(von_mises).collect(),
+        max_principal: stress.iter().map(max_principal).collect(),
+    }
+}
+
+/// Volume, amount of species, elastic and chemical energy, integrated with the quadrature of the
+/// coupled kernel ([`stiffness_degree`], weight `2πr` in axisymmetry), so that the amount agrees
+/// to round-off with the discrete mass balance of the solver.
+///
+/// Errors: an inverted cell, or a concentration outside the range of the law at a quadrature
+/// point.
+pub fn coupled_integrals(
+    mesh: &Mesh,
+    post: &CoupledPost<'_>,
+) -> Result<CoupledIntegrals, CoupledError> {
+    let mut cache = CellValuesCache::new(post.mode, stiffness_degree, field_orders(post).to_vec());
+    let nc = post.dofs.spec(post.fields.u).n_components;
+    let mut local = LocalFields::default();
+    let mut coords = Vec::new();
+    let mut sums = CoupledIntegrals::default();
+    for (id, kind, nodes) in mesh.cells() {
+        let cv = cache.get(kind);
+        coords.clear();
+        coords.extend(nodes.iter().map(|&p| mesh.points[p]));
+        cv.reinit(id, &coords)?;
+        local.gather(post, id, kind);
+        let law = post.laws.law(id);
+        for q in 0..cv.n_points() {
+            let w = cv.jxw[q];
+            let su = &cv.spaces[0];
+            // Quadrature points are interior: r > 0 in axisymmetry.
+            let strain = strain_at(
+                post.mode,
+                su.grads(q),
+                su.values(q),
+                cv.points[q][0],
+                &local.u,
+                nc,
+            );
+            let (c, grad_mu) = local.scalars_at(cv, q);
+            let out: PointOutput =
+                law.evaluate(&PointInput { strain, c, grad_mu })
+                    .map_err(|source| CoupledError::Range {
+                        cell: id,
+                        point: q,
+                        source,
+                    })?;
+            sums.volume += w;
+            sums.amount += c * w;
+            sums.elastic_energy += out.elastic_energy * w;
+            sums.chemical_energy += out.chemical_energy * w;
+        }
+    }
+    Ok(sums)
+}
+
+/// One component of a field, to be averaged over boundary facets by [`boundary_mean`].
+#[derive(Clone, Copy, Debug)]
+pub struct BoundaryField<'a> {
+    /// DOF map holding the field.
+    pub dofs: &'a DofMap,
+    /// The field.
+    pub field: FieldHandle,
+    /// Component of the field (0 for a scalar).
+    pub component: usize,
+    /// Geometry mode (the facet weight is `2πr dA` in axisymmetry).
+    pub mode: GeometryMode,
+    /// Global solution vector.
+    pub solution: &'a [f64],
+}
+
+/// The facets given to [`boundary_mean`] have no area: the set is empty, or every facet lies on
+/// the axis of an axisymmetric model (weight `2πr = 0`).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, thiserror::Error)]
+#[error("boundary mean over {n_facets} facet(s): their total area is zero (expected a non-empty set of facets off the axis of revolution)")]
+pub struct ZeroArea {
+    /// Number of facets given.
+    pub n_facets: usize,
+}
+
+/// Area-weighted mean `∫ v dA / ∫ dA` of one field component over boundary facets (e.g. a
+/// named boundary `mesh.boundary("outer")?`), with the field's facet interpolation and a facet
+/// rule of degree `2p + 2` (`p` the facet's geometric order), as the boundary-flux kernels use.
+/// In axisymmetry both integrals carry `2πr`, so the mean is over the surface of revolution.
+///
+/// # Panics
+/// If a facet names a cell or local facet that is not in the mesh, or `component` is not a
+/// component of the field (bugs of the caller).
+pub fn boundary_mean(
+    mesh: &Mesh,
+    field: &BoundaryField<'_>,
+    facets: &[Facet],
+) -> Result<f64, ZeroArea> {
+    let spec = field.dofs.spec(field.field);
+    assert!(
+        field.component < spec.n_components,
+        "component {} of field '{}' with {} component(s)",
+        field.component,
+        spec.name,
+        spec.n_components
+    );
+    let mut cache = Vec::new();
+    let mut coords = Vec::new();
+    let (mut integral, mut area) = (0.0, 0.0);
+    for &facet in facets {
+        let (cell_kind, nodes) = mesh.cell(facet.cell);
+        let (fk, local_nodes) = cell_kind.facets()[facet.local as usize];
+        let fsk = space_kind(fk, spec.order).unwrap_or(fk.linear());
+        let fv = facet_values(&mut cache, fk, field.mode, fsk);
+        coords.clear();
+        coords.extend(local_nodes.iter().map(|&l| mesh.points[nodes[l]]));
+        fv.reinit(&coords);
+        let cell_dofs =
+            &field.dofs.cell_dofs(facet.cell)[field.dofs.local_range(field.field, cell_kind)];
+        for q in 0..fv.n_points() {
+            let nv = fv.spaces[0].values_at(q);
+            // Facet node i is cell node local_nodes[i]; the field's space uses the first nodes.
+            let v: f64 = nv
+                .iter()
+                .zip(local_nodes)
+                .map(|(&n, &l)| {
+                    n * field.solution[cell_dofs[l * spec.n_components + field.component]]
+                })
+                .sum();
+            integral += v * fv.jxw[q];
+            area += fv.jxw[q];
+        }
+    }
+    if area > 0.0 {
+        Ok(integral / area)
+    } else {
+        Err(ZeroArea {
+            n_facets: facets.len(),
+        })
+    }
+}
+
+/// Interpolation orders of `u`, `c`, `μ` (the order of the spaces in the cell values).
+fn field_orders(post: &CoupledPost<'_>) -> [usize; 3] {
+    let f = post.fields;
+    [f.u, f.c, f.mu].map(|h| post.dofs.spec(h).order)
+}
+
+/// Local values of the three fields on one cell (reused between cells).
+#[derive(Default)]
+struct LocalFields {
+    u: Vec<f64>,
+    c: Vec<f64>,
+    mu: Vec<f64>,
+}
+
+impl LocalFields {
+    fn gather(&mut self, post: &CoupledPost<'_>, cell: usize, kind: dilata_mesh::CellKind) {
+        let dofs = post.dofs.cell_dofs(cell);
+        let fill = |into: &mut Vec<f64>, f: FieldHandle| {
+            into.clear();
+            into.extend(
+                dofs[post.dofs.local_range(f, kind)]
+                    .iter()
+                    .map(|&d| post.solution[d]),
+            );
+        };
+        fill(&mut self.u, post.fields.u);
+        fill(&mut self.c, post.fields.c);
+        fill(&mut self.mu, post.fields.mu);
+    }
+
+    /// Concentration and potential gradient at point `q` of `cv` (spaces `[u, c, μ]`).
+    fn scalars_at(&self, cv: &CellValues, q: usize) -> (f64, Vector3<f64>) {
+        let vc = cv.spaces[1].values(q);
+        let c: f64 = vc.iter().zip(&self.c).map(|(n, c)| n * c).sum();
+        let gm = cv.spaces[2].grads(q);
+        let mut grad_mu = Vector3::zeros();
+        for (g, &m) in gm.iter().zip(&self.mu) {
+            for d in 0..3 {
+                grad_mu[d] += g[d] * m;
+            }
+        }
+        (c, grad_mu)
+    }
+}
