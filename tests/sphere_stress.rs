@@ -43,7 +43,7 @@ fn law(omega: f64) -> CoupledPointLaw {
     })
 }
 
-/// Errors of one order-of-convergence pair: observed order log2(coarse/fine).
+/// Observed order of convergence from the errors on two meshes, h halved: log2(coarse/fine).
 fn order(coarse: f64, fine: f64) -> f64 {
     (coarse / fine).log2()
 }
@@ -250,7 +250,8 @@ fn sphere_with_constant_flux_has_thermal_analogy_stresses() {
 
 /// Held surface concentration c_s (c₀ = 1000, so θ = (c − c₀)/500).
 const C_SURFACE: f64 = 1500.0;
-/// Coupling as in the flux case: tiny Ω, pure linear diffusion (Crank's series assumes it).
+/// Comparison times τ = D t/R². The coupling is as in the flux case (Ω = OMEGA_WEAK): pure
+/// linear diffusion, which Crank's series assumes.
 const TAUS: [f64; 2] = [0.05, 0.2];
 /// Δτ = 1e-3: 50 steps to τ = 0.05 and 200 to τ = 0.2. Time error: a run with Δτ = 5e-4
 /// moved every compared value at n = 8 by at most 5.5e-5 (centre θ at τ = 0.05; uptake by
