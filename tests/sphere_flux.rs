@@ -19,20 +19,16 @@ mod common;
 
 use std::time::Instant;
 
+use common::sphere::{
+    flux_theta as theta_series, node_at, outer_area, run_sphere, sphere_mesh, tan_root, SphereRun,
+    Surface,
+};
 use dilata_fem::dofs::DofMap;
-use dilata_fem::quadrature::rule_for;
-use dilata_fem::values::space_kind;
-use dilata_fem::{BoundaryTarget, FacetValues, GeometryMode};
-use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
+use dilata_fem::GeometryMode;
 use dilata_material::coupled::CoupledPointLaw;
-use dilata_mesh::generate::{quarter_disc, DiscParams};
 use dilata_mesh::{CellKind, Mesh};
-use dilata_physics::coupled::{CoupledFields, LawMap};
+use dilata_physics::coupled::CoupledFields;
 use dilata_physics::norms::field_integral;
-use dilata_solve::coupled::CoupledProblem;
-use dilata_solve::newton::NewtonParams;
-use dilata_solve::time::{Integrator, IntegratorParams, Scheme, StepSizing};
-use dilata_solve::BoundaryLoad;
 
 const E: f64 = 10e9;
 const NU: f64 = 0.3;
@@ -60,67 +56,9 @@ fn law() -> CoupledPointLaw {
     })
 }
 
-/// The n-th positive root of tan λ = λ (n ≥ 1), which lies in (nπ, (n + ½)π): bisection on
-/// f(λ) = sin λ − λ cos λ, which has the same roots there and no poles (f(nπ) and f((n+½)π)
-/// have opposite signs).
-fn tan_root(n: usize) -> f64 {
-    let f = |l: f64| l.sin() - l * l.cos();
-    let pi = std::f64::consts::PI;
-    let (mut lo, mut hi) = (n as f64 * pi, (n as f64 + 0.5) * pi);
-    let f_lo = f(lo);
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if (f(mid) > 0.0) == (f_lo > 0.0) {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
-        if hi - lo <= 4.0 * f64::EPSILON * hi {
-            break;
-        }
-    }
-    0.5 * (lo + hi)
-}
-
-/// Crank's series for θ(x, τ) (section 6.3, from memory), summed over `roots`; at x → 0 the
-/// factor (2/x) sin(λx) tends to 2λ.
-fn theta_series(x: f64, tau: f64, roots: &[f64]) -> f64 {
-    let sum: f64 = roots
-        .iter()
-        .map(|&l| {
-            let spatial = if x < 1e-12 {
-                2.0 * l
-            } else {
-                2.0 * (l * x).sin() / x
-            };
-            spatial * (-l * l * tau).exp() / (l * l * l.sin())
-        })
-        .sum();
-    3.0 * tau + 0.5 * x * x - 0.3 - sum
-}
-
 /// ∫ c dV with the kernels' cell quadrature (see `field_integral`).
 fn amount(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, x: &[f64]) -> f64 {
     field_integral(mesh, dofs, fields.c, GeometryMode::Axisymmetric, x).unwrap()
-}
-
-/// Area of the `outer` boundary (the half sphere's surface, 2πR² exactly) with the facet
-/// quadrature of the flux kernel (degree 2·order + 2), so that J × area is the discrete inflow.
-fn outer_area(mesh: &Mesh) -> f64 {
-    let mut area = 0.0;
-    for &f in mesh.boundary("outer").unwrap() {
-        let (fk, nodes) = mesh.facet_nodes(f);
-        let mut fv = FacetValues::new(
-            fk,
-            GeometryMode::Axisymmetric,
-            rule_for(fk.shape(), 2 * fk.order() + 2),
-            &[space_kind(fk, 1).unwrap_or(fk.linear())],
-        );
-        let coords: Vec<[f64; 3]> = nodes.iter().map(|&n| mesh.points[n]).collect();
-        fv.reinit(&coords);
-        area += fv.jxw.iter().sum::<f64>();
-    }
-    area
 }
 
 struct Outcome {
@@ -138,99 +76,49 @@ struct Outcome {
 }
 
 fn run(n_cells: usize, n_steps: usize) -> Outcome {
-    let mesh = quarter_disc(&DiscParams {
+    // Quarter disc of Quad8, u_r = 0 on the axis, u_z = 0 on the equatorial plane, the flux on
+    // `outer`, uniform c = c₀ = c_ref initially (so μ = 0 and u = 0), fixed BDF2 steps; see
+    // `common::sphere`.
+    let t_end = TAU_END * RADIUS * RADIUS / D;
+    let sphere = SphereRun {
         radius: RADIUS,
         n_cells,
         kind: CellKind::Quad8,
-    })
-    .unwrap();
-    let (dofs, fields) = common::coupled_dofs(&mesh, 2);
-    let mut problem = CoupledProblem::new(
-        &mesh,
-        dofs,
-        fields,
-        GeometryMode::Axisymmetric,
-        LawMap::uniform(law(), mesh.n_cells()),
-        Parallelism::Sequential,
-    );
-    // u_r = 0 on the axis, u_z = 0 on the equatorial plane.
-    for (boundary, component) in [("axis", 0), ("symmetry_y", 1)] {
-        problem
-            .constraints
-            .add_boundary(
-                &mesh,
-                &problem.dofs,
-                BoundaryTarget {
-                    boundary,
-                    field: fields.u,
-                    component,
-                },
-                0.0,
-            )
-            .unwrap();
-    }
-    problem.loads.push((
-        mesh.boundary("outer").unwrap().to_vec(),
-        BoundaryLoad::Flux(Box::new(|_| J)),
-    ));
-
-    // Uniform c = c₀ = c_ref, so μ = 0 and u = 0 are the consistent initial state.
-    let mut x0 = vec![0.0; problem.dofs.n_dofs()];
-    for node in problem.dofs.field_nodes(fields.c) {
-        x0[problem.dofs.node_dof(fields.c, node, 0).unwrap()] = C0;
-    }
-    let centre = (0..mesh.n_points())
-        .find(|&i| mesh.points[i][0].hypot(mesh.points[i][1]) < 1e-9 * RADIUS)
-        .expect("centre node");
-    let surface = (0..mesh.n_points())
-        .find(|&i| {
-            (mesh.points[i][0] - RADIUS).abs() < 1e-9 * RADIUS
-                && mesh.points[i][1].abs() < 1e-9 * RADIUS
-        })
-        .expect("surface node at (R, 0)");
-    let c_centre = problem.dofs.node_dof(fields.c, centre, 0).unwrap();
-    let c_surface = problem.dofs.node_dof(fields.c, surface, 0).unwrap();
-
-    let t_end = TAU_END * RADIUS * RADIUS / D;
-    let dt = t_end / n_steps as f64;
-    let mut solver = FaerLu::new(DirectParams::with_ordering(Ordering::Amd));
-    solver.analyze(problem.assembler.pattern()).unwrap();
-    let params = IntegratorParams {
-        scheme: Scheme::Bdf2,
-        sizing: StepSizing::Fixed { dt },
-        newton: NewtonParams {
-            abs_tol: 0.0,
-            rel_tol: 1e-12,
-            step_tol: 1e-12,
-            max_iterations: 15,
-            max_backtracks: 4,
-        },
-        cut_factor: 0.5,
-        dt_min: dt * 1e-3,
+        law: law(),
+        c0: C0,
+        surface: Surface::Flux(J),
+        dt: t_end / n_steps as f64,
+        n_steps,
     };
+    let mesh = sphere_mesh(&sphere);
+    let centre = node_at(&mesh, 0.0, 0.0, RADIUS);
+    let surface = node_at(&mesh, RADIUS, 0.0, RADIUS);
     let area = outer_area(&mesh);
-    let m0 = amount(&mesh, &problem.dofs, fields, &x0);
-    let volume = m0 / C0;
-    let mut integ = Integrator::new(params, 0.0, x0);
+    let mut m0 = f64::NAN;
     let mut balance_error: f64 = 0.0;
-    while integ.state.t < t_end * (1.0 - 1e-12) {
-        let report = integ.step(&mut problem, &mut solver, t_end).unwrap();
-        assert!(
-            report.rejections.is_empty(),
-            "t = {:e}: rejected attempts {:?}",
-            report.t,
-            report.rejections
-        );
-        let gained = amount(&mesh, &problem.dofs, fields, &integ.state.x) - m0;
-        let inflow = J * area * integ.state.t;
+    let mut last = None;
+    run_sphere(&mesh, &sphere, |st| {
+        if st.step == 1 {
+            // The initial amount: c₀ times the discrete volume.
+            m0 = amount(st.mesh, st.dofs, st.fields, &vec![C0; st.x.len()]);
+        }
+        let gained = amount(st.mesh, st.dofs, st.fields, st.x) - m0;
+        let inflow = J * area * st.t;
         balance_error = balance_error.max((gained - inflow).abs() / inflow);
-    }
-    assert_eq!(integ.state.n_accepted, n_steps);
-    let x = &integ.state.x;
-    let m_end = amount(&mesh, &problem.dofs, fields, x);
+        if st.step == n_steps {
+            let c_dof = |node: usize| st.dofs.node_dof(st.fields.c, node, 0).unwrap();
+            last = Some((
+                st.x[c_dof(surface)],
+                st.x[c_dof(centre)],
+                amount(st.mesh, st.dofs, st.fields, st.x),
+            ));
+        }
+    });
+    let (c_surface, c_centre, m_end) = last.expect("the last step was observed");
+    let volume = m0 / C0;
     Outcome {
-        theta_surface: (x[c_surface] - C0) / DELTA_C,
-        theta_centre: (x[c_centre] - C0) / DELTA_C,
+        theta_surface: (c_surface - C0) / DELTA_C,
+        theta_centre: (c_centre - C0) / DELTA_C,
         balance_error,
         theta_mean: (m_end / volume - C0) / DELTA_C,
         area_over_volume: area / volume,

@@ -1,6 +1,9 @@
 //! Shared helpers of the integration tests.
 #![allow(dead_code)]
 
+pub mod sphere;
+pub mod stress;
+
 use std::collections::BTreeSet;
 
 use dilata_linalg::{DirectParams, FaerCholesky, LinearSolver, Ordering};
