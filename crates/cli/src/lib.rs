@@ -3,9 +3,9 @@
 //! Argument parsing, progress display and error presentation for the `dilata` command. No
 //! numerics here: commands call the library crates and print what they return.
 
-mod demo;
 mod json;
 mod mesh_cmd;
+mod scenario_cmd;
 
 use std::path::PathBuf;
 use std::process::ExitCode;
@@ -34,8 +34,25 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// Run the built-in demonstration: a pressurised thick-walled tube, meshed, solved and
-    /// written as .vtu files, with the bore stress compared against the closed-form solution.
+    /// Check a scenario file without computing: syntax, keys, types, ranges, boundary and zone
+    /// names, materials, rigid-body supports. Prints a short description.
+    Check {
+        /// The scenario file (TOML, see docs/scenario.md).
+        file: PathBuf,
+    },
+    /// Run a scenario: fields as .vtu files with a .pvd index, history.csv, summary.json.
+    Run {
+        /// The scenario file (TOML, see docs/scenario.md).
+        file: PathBuf,
+        /// Results directory (default: dilata-out/<scenario name>).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
+        /// Worker threads for assembly and factorisation (default: all cores).
+        #[arg(long, value_name = "N")]
+        threads: Option<usize>,
+    },
+    /// Run the built-in demonstration scenario: a spherical storage particle charged at
+    /// constant current to half capacity, then resting (examples/charging_particle).
     Demo {
         /// Results directory (created if missing).
         #[arg(long, value_name = "DIR", default_value = "dilata-out/demo")]
@@ -43,9 +60,6 @@ enum Command {
         /// Worker threads for assembly and factorisation (default: all cores).
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
-        /// Mesh refinement level (cells across the wall = 4 × level).
-        #[arg(long, value_name = "LEVEL", default_value_t = 3)]
-        refine: usize,
     },
 }
 
@@ -55,11 +69,9 @@ pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Mesh { file, vtu, json } => mesh_cmd::run(&file, vtu.as_deref(), json),
-        Command::Demo {
-            out,
-            threads,
-            refine,
-        } => demo::run(&out, threads, refine),
+        Command::Check { file } => scenario_cmd::check(&file),
+        Command::Run { file, out, threads } => scenario_cmd::run(&file, out.as_deref(), threads),
+        Command::Demo { out, threads } => scenario_cmd::demo(&out, threads),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -38,3 +38,4 @@ pub use atomic::write_atomic;
 pub use error::{Association, IoError};
 pub use pvd::{format_time, PvdWriter};
 pub use vtu::{vtk_cell_type, write_vtu, FieldData, FieldKind, REGION_ARRAY};
+pub mod scenario;

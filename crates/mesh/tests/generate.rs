@@ -6,8 +6,9 @@
 use std::collections::{BTreeSet, HashMap};
 
 use dilata_mesh::generate::{
-    annulus_sector, ball_octant, cuboid, disc, quarter_disc, rectangle, shell_octant,
-    AnnulusParams, BallParams, BoxParams, DiscParams, RectangleParams, ShellParams,
+    annulus_sector, ball_octant, cuboid, disc, notched_plate, quarter_disc, rectangle,
+    shell_octant, AnnulusParams, BallParams, BoxParams, DiscParams, NotchedPlateParams,
+    RectangleParams, ShellParams,
 };
 use dilata_mesh::{CellKind, Facet, Mesh, MeshError, Shape};
 

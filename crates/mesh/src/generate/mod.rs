@@ -28,6 +28,7 @@
 
 mod blocks;
 mod cube_sphere;
+mod plate;
 mod structured;
 
 use std::f64::consts::{FRAC_PI_2, TAU};
@@ -103,6 +104,26 @@ pub struct AnnulusParams {
     pub n_radial: usize,
     /// Cells around the sector (at least 1, and at most [`MAX_CELL_ANGLE`] per cell).
     pub n_angular: usize,
+    /// Quad4, Quad8 or Quad9.
+    pub kind: CellKind,
+}
+
+/// Parameters of [`notched_plate`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct NotchedPlateParams {
+    /// Extent along x (positive, larger than the radius).
+    pub width: f64,
+    /// Extent along y (positive, larger than the radius).
+    pub height: f64,
+    /// Radius of the quarter-circle cut at the origin.
+    pub radius: f64,
+    /// Cells from the arc to the straight edges (at least 1).
+    pub n_radial: usize,
+    /// Cells along the arc in each of the two blocks (at least 1).
+    pub n_angular: usize,
+    /// Ratio of the outermost to the innermost radial cell size (1 uniform; above 1 refines
+    /// towards the arc).
+    pub grading: f64,
     /// Quad4, Quad8 or Quad9.
     pub kind: CellKind,
 }
@@ -275,6 +296,50 @@ pub fn annulus_sector(params: &AnnulusParams) -> Result<Mesh, MeshError> {
     };
     let mut builder = Builder::new(2, params.kind);
     builder.add_block(&block);
+    Ok(builder.finish())
+}
+
+/// The rectangle `[0, width] × [0, height]` without the quarter disc of radius `radius` at the
+/// origin, in two mapped quad blocks split along the ray to the corner `(width, height)`.
+///
+/// It is the quarter model of a plate with a central circular hole (symmetry on `left` and
+/// `bottom`) or the half model of a plate with a semicircular edge notch (symmetry on `bottom`,
+/// `left` free). Boundaries `notch` (the arc), `bottom` (y = 0), `right` (x = width), `top`
+/// (y = height), `left` (x = 0). Nodes of the arc, mid-side nodes included, lie on the circle.
+pub fn notched_plate(params: &NotchedPlateParams) -> Result<Mesh, MeshError> {
+    const WHAT: &str = "notched plate";
+    check_kind(WHAT, params.kind, &QUAD_KINDS)?;
+    check_positive(WHAT, "width", params.width)?;
+    check_positive(WHAT, "height", params.height)?;
+    check_positive(WHAT, "radius", params.radius)?;
+    if params.radius >= params.width.min(params.height) {
+        return Err(MeshError::Generator(format!(
+            "{WHAT}: the radius {} must be smaller than the width {} and the height {}",
+            params.radius, params.width, params.height
+        )));
+    }
+    check_count(WHAT, "n_radial", params.n_radial)?;
+    check_count(WHAT, "n_angular", params.n_angular)?;
+    if !(params.grading.is_finite() && params.grading > 0.0) {
+        return Err(MeshError::Generator(format!(
+            "{WHAT}: grading must be a positive number, got {}",
+            params.grading
+        )));
+    }
+    check_size(WHAT, &[params.n_radial, 2 * params.n_angular])?;
+    let mut builder = Builder::new(2, params.kind);
+    for upper in [false, true] {
+        builder.add_block(&plate::NotchBlock {
+            width: params.width,
+            height: params.height,
+            radius: params.radius,
+            n_radial: params.n_radial,
+            n_angular: params.n_angular,
+            angular_offset: if upper { 2 * params.n_angular } else { 0 },
+            upper,
+            grading: params.grading,
+        });
+    }
     Ok(builder.finish())
 }
 

@@ -3,10 +3,10 @@
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 
 use super::{
-    annulus_sector, assert_same_corners, ball_octant, check_mesh, cuboid, disc, norm, per_axis,
-    plane, quarter_disc, rectangle, shell_octant, sphere, sub, total_measure, AnnulusParams,
-    BallParams, BoxParams, CellKind, DiscParams, Expect, Mesh, MeshError, Point, RectangleParams,
-    Shape, ShellParams,
+    annulus_sector, assert_same_corners, ball_octant, check_mesh, cuboid, disc, norm,
+    notched_plate, per_axis, plane, quarter_disc, rectangle, shell_octant, sphere, sub,
+    total_measure, AnnulusParams, BallParams, BoxParams, CellKind, DiscParams, Expect, Mesh,
+    MeshError, NotchedPlateParams, Point, RectangleParams, Shape, ShellParams,
 };
 
 const PLANAR: [CellKind; 5] = [
@@ -281,6 +281,64 @@ fn annulus_every_kind() {
             check_mesh(&mesh, &expect);
         }
     }
+}
+
+/// Plate with a quarter-circle notch: both blocks, shared seam, every straight edge and the arc,
+/// graded and uniform, and its area against `W H − π a²/4` (exact geometry).
+#[test]
+fn notched_plate_every_kind() {
+    for (grading, n_radial, n_angular) in [(1.0, 2, 3), (4.0, 5, 2)] {
+        for kind in QUADS {
+            let (w, h, a) = (3.0, 2.0, 0.5);
+            let mesh = notched_plate(&NotchedPlateParams {
+                width: w,
+                height: h,
+                radius: a,
+                n_radial,
+                n_angular,
+                grading,
+                kind,
+            })
+            .unwrap();
+            let n_cells = 2 * n_radial * n_angular;
+            let lattice = per_axis(n_radial, kind) * per_axis(2 * n_angular, kind);
+            let expect = Expect {
+                kind,
+                n_points: serendipity_count(kind, lattice, n_cells, 0),
+                n_cells,
+                scale: w,
+                boundaries: vec![
+                    sphere("notch", 2 * n_angular, a, -1.0),
+                    plane("bottom", n_radial, 1, 0.0, -1.0),
+                    plane("left", n_radial, 0, 0.0, -1.0),
+                    plane("right", n_angular, 0, w, 1.0),
+                    plane("top", n_angular, 1, h, 1.0),
+                ],
+                aliases: vec![],
+            };
+            check_mesh(&mesh, &expect);
+            if kind != CellKind::Quad4 {
+                // Quadratic arcs: the area error is that of a parabola through three points
+                // of the circle, small but not round-off.
+                let exact = w * h - PI * a * a / 4.0;
+                let area = total_measure(&mesh);
+                assert!(
+                    (area - exact).abs() < 2e-3 * exact,
+                    "{kind}: {area} vs {exact}"
+                );
+            }
+        }
+    }
+    assert!(notched_plate(&NotchedPlateParams {
+        width: 1.0,
+        height: 1.0,
+        radius: 1.0,
+        n_radial: 1,
+        n_angular: 1,
+        grading: 1.0,
+        kind: CellKind::Quad4,
+    })
+    .is_err());
 }
 
 fn ball_expect(kind: CellKind, n: usize, radius: f64) -> Expect {

@@ -1,0 +1,240 @@
+//! `dilata check`, `dilata run` and `dilata demo`: scenario files through the driver, with a
+//! progress line on simulated time.
+
+use std::io::{IsTerminal, Write};
+use std::path::Path;
+use std::time::Instant;
+
+use anyhow::Context;
+use dilata_run::{
+    build_model, check_model, load_model, material_table, Model, Progress, RunOptions, RunSummary,
+};
+
+use crate::json::Json;
+
+/// The built-in demonstration scenario (also `examples/charging_particle/scenario.toml`).
+pub const DEMO_SCENARIO: &str = include_str!("../../../examples/charging_particle/scenario.toml");
+
+const CAUTION: &str = "Results inform design; they do not certify it. Validate against \
+experiments and defer to applicable codes, standards and licensed engineering practice.";
+
+/// `dilata check FILE`.
+pub fn check(file: &Path) -> anyhow::Result<()> {
+    let model = load_model(file)?;
+    check_model(&model)?;
+    describe(&model);
+    println!("{}: no problems found", file.display());
+    Ok(())
+}
+
+fn describe(model: &Model) {
+    let s = &model.scenario;
+    if !s.title.is_empty() {
+        println!("{}", s.title);
+    }
+    println!(
+        "  body       {:?}, {} nodes, {} cells; orders u {}, c {}, mu {}",
+        s.body.geometry,
+        model.mesh.n_points(),
+        model.mesh.n_cells(),
+        model.orders[0],
+        model.orders[1],
+        model.orders[2]
+    );
+    for (name, cells) in material_table(model) {
+        println!("  material   {name}: {cells} cells");
+    }
+    for stage in &model.stages {
+        let stop = match &stage.stop {
+            Some(rule) => format!(", or earlier when {rule:?}"),
+            None => String::new(),
+        };
+        println!(
+            "  stage      {}: {} s{stop}, {} boundary conditions",
+            stage.name,
+            stage.duration,
+            stage.conditions.len()
+        );
+    }
+}
+
+/// `dilata run FILE`.
+pub fn run(file: &Path, out: Option<&Path>, threads: Option<usize>) -> anyhow::Result<()> {
+    let model = load_model(file)?;
+    let out = match out {
+        Some(o) => o.to_path_buf(),
+        None => {
+            let stem = file
+                .file_stem()
+                .map_or("run".into(), |s| s.to_string_lossy());
+            Path::new("dilata-out").join(stem.as_ref())
+        }
+    };
+    run_model(&model, &out, threads).map(|_| ())
+}
+
+fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Result<RunSummary> {
+    if threads == Some(0) {
+        anyhow::bail!("--threads must be at least 1");
+    }
+    check_model(model)?;
+    describe(model);
+    let mut bar = ProgressLine::new();
+    let summary = dilata_run::run(
+        model,
+        &RunOptions {
+            out: out.to_path_buf(),
+            threads,
+        },
+        &mut |p| bar.update(p),
+    );
+    bar.finish();
+    let summary = summary?;
+    println!(
+        "done: {} steps ({} rejected attempts), t = {:.6e} s, {:.2} s wall",
+        summary.steps, summary.rejected, summary.final_time, summary.wall_seconds
+    );
+    for s in &summary.stages {
+        println!(
+            "  stage {:<12} {:.6e} s .. {:.6e} s, ended by {}",
+            s.name, s.start, s.end, s.reason
+        );
+    }
+    let r = &summary.final_row;
+    println!(
+        "  final mean concentration {:.6e} mol/m^3 (min {:.6e}, max {:.6e})",
+        r.c_mean, r.c_min, r.c_max
+    );
+    println!(
+        "  largest hydrostatic stress {:.6e} Pa at t = {:.6e} s; largest principal stress {:.6e} Pa at t = {:.6e} s",
+        summary.max_hydrostatic.0, summary.max_hydrostatic.1, summary.max_principal.0, summary.max_principal.1
+    );
+    println!(
+        "  mass balance: amount - initial - inflow = {:.3e} mol",
+        r.balance_error
+    );
+    println!("  results in {}", out.display());
+    println!("{CAUTION}");
+    Ok(summary)
+}
+
+/// `dilata demo`: the built-in scenario.
+pub fn demo(out: &Path, threads: Option<usize>) -> anyhow::Result<()> {
+    let model = build_model(
+        DEMO_SCENARIO.to_string(),
+        "built-in demo scenario",
+        Path::new("."),
+    )?;
+    let summary = run_model(&model, out, threads)?;
+    if let Some((file, probes)) = &summary.last_snapshot {
+        write_expectations(out, &model, file, probes)?;
+    }
+    Ok(())
+}
+
+/// Expectations for an independent reader (CI's VTK check) of the last snapshot, written beside
+/// it as `fields_NNNN.expect.json`.
+fn write_expectations(
+    out: &Path,
+    model: &Model,
+    file: &str,
+    probes: &[(String, usize, usize, f64)],
+) -> anyhow::Result<()> {
+    let arrays = probes
+        .iter()
+        .map(|(name, nc, idx, v)| {
+            Json::Obj(vec![
+                ("association".into(), Json::Str("point".into())),
+                ("name".into(), Json::Str(name.clone())),
+                ("components".into(), Json::Int(*nc as i64)),
+                (
+                    "values".into(),
+                    Json::Arr(vec![Json::Arr(vec![Json::Int(*idx as i64), Json::Num(*v)])]),
+                ),
+            ])
+        })
+        .collect();
+    let cells: Vec<(String, Json)> = model
+        .mesh
+        .cell_counts()
+        .into_iter()
+        .map(|(k, n)| (k.name().to_string(), Json::Int(n as i64)))
+        .collect();
+    let doc = Json::Obj(vec![
+        ("points".into(), Json::Int(model.mesh.n_points() as i64)),
+        ("cells".into(), Json::Int(model.mesh.n_cells() as i64)),
+        ("cell_type_counts".into(), Json::Obj(cells)),
+        ("arrays".into(), Json::Arr(arrays)),
+    ]);
+    let path = out.join(file.replace(".vtu", ".expect.json"));
+    dilata_io::write_atomic(&path, doc.render().as_bytes())
+        .with_context(|| format!("writing {}", path.display()))?;
+    Ok(())
+}
+
+/// One status line on standard error: redrawn in place on a terminal, printed every few
+/// seconds otherwise.
+struct ProgressLine {
+    tty: bool,
+    last: Option<Instant>,
+    drawn: bool,
+}
+
+impl ProgressLine {
+    fn new() -> Self {
+        ProgressLine {
+            tty: std::io::stderr().is_terminal(),
+            last: None,
+            drawn: false,
+        }
+    }
+
+    fn update(&mut self, p: &Progress<'_>) {
+        let now = Instant::now();
+        let interval = if self.tty { 0.1 } else { 5.0 };
+        let due = self
+            .last
+            .is_none_or(|l| now.duration_since(l).as_secs_f64() >= interval);
+        if !due {
+            return;
+        }
+        self.last = Some(now);
+        let span = (p.program_end - p.program_start).max(f64::MIN_POSITIVE);
+        let done = ((p.time - p.program_start) / span).clamp(0.0, 1.0);
+        let width = 24;
+        let filled = (done * width as f64).round() as usize;
+        let eta = if done > 0.0 {
+            format!("{:.0} s", p.wall_seconds * (1.0 - done) / done)
+        } else {
+            "?".into()
+        };
+        let line = format!(
+            "[{}{}] stage {}/{} {:<10} t = {:.3e} s  dt = {:.2e} s  newton {}  steps {} ({} rejected)  left ~{}",
+            "#".repeat(filled),
+            "-".repeat(width - filled),
+            p.stage_index + 1,
+            p.n_stages,
+            p.stage,
+            p.time,
+            p.dt,
+            p.newton_iterations,
+            p.steps,
+            p.rejected,
+            eta
+        );
+        let mut err = std::io::stderr();
+        if self.tty {
+            let _ = write!(err, "\r{line}\x1b[K");
+        } else {
+            let _ = writeln!(err, "{line}");
+        }
+        let _ = err.flush();
+        self.drawn = true;
+    }
+
+    fn finish(&mut self) {
+        if self.tty && self.drawn {
+            let _ = writeln!(std::io::stderr());
+        }
+    }
+}

@@ -1,0 +1,290 @@
+//! Result files of a run: field snapshots (`.vtu` + `fields.pvd`), `history.csv` flushed every
+//! step, the scenario copy and `summary.json`.
+
+use std::fs::File;
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::shape::eval_into;
+use dilata_fem::values::space_kind;
+use dilata_fem::FieldHandle;
+use dilata_io::{write_atomic, write_vtu, FieldData, FieldKind, IoError, PvdWriter};
+use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
+use dilata_mesh::Mesh;
+
+/// Columns of `history.csv`, in order (documented in docs/scenario.md).
+pub const HISTORY_COLUMNS: [&str; 18] = [
+    "time_s",
+    "step",
+    "stage",
+    "dt_s",
+    "newton_iterations",
+    "rejected_attempts",
+    "amount_mol",
+    "inflow_mol",
+    "balance_error_mol",
+    "c_mean_mol_m3",
+    "c_min_mol_m3",
+    "c_max_mol_m3",
+    "peak_hydrostatic_stress_pa",
+    "peak_max_principal_stress_pa",
+    "peak_von_mises_stress_pa",
+    "elastic_energy_j",
+    "chemical_energy_j",
+    "wall_s",
+];
+
+/// One row of the history.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct HistoryRow {
+    pub time: f64,
+    pub step: usize,
+    pub stage: String,
+    pub dt: f64,
+    pub newton_iterations: usize,
+    pub rejected: usize,
+    pub amount: f64,
+    pub inflow: f64,
+    pub balance_error: f64,
+    pub c_mean: f64,
+    pub c_min: f64,
+    pub c_max: f64,
+    pub peak_hydrostatic: f64,
+    pub peak_principal: f64,
+    pub peak_von_mises: f64,
+    pub elastic_energy: f64,
+    pub chemical_energy: f64,
+    pub wall: f64,
+}
+
+/// `history.csv`, one line per accepted step, flushed as it is written.
+pub struct History {
+    path: PathBuf,
+    file: BufWriter<File>,
+}
+
+fn io_err(path: &Path, operation: &'static str) -> impl FnOnce(std::io::Error) -> IoError {
+    let path = path.to_path_buf();
+    move |source| IoError::Io {
+        path,
+        operation,
+        source,
+    }
+}
+
+impl History {
+    /// Create (truncate) the file and write the header.
+    pub fn create(path: &Path) -> Result<History, IoError> {
+        let file = File::create(path).map_err(io_err(path, "create"))?;
+        let mut h = History {
+            path: path.to_path_buf(),
+            file: BufWriter::new(file),
+        };
+        let header = HISTORY_COLUMNS.join(",");
+        writeln!(h.file, "{header}").map_err(io_err(path, "write"))?;
+        h.file.flush().map_err(io_err(path, "write"))?;
+        Ok(h)
+    }
+
+    /// Append a row and flush it to the operating system.
+    pub fn append(&mut self, r: &HistoryRow) -> Result<(), IoError> {
+        writeln!(
+            self.file,
+            "{:.17e},{},{},{:.17e},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.3}",
+            r.time,
+            r.step,
+            r.stage,
+            r.dt,
+            r.newton_iterations,
+            r.rejected,
+            r.amount,
+            r.inflow,
+            r.balance_error,
+            r.c_mean,
+            r.c_min,
+            r.c_max,
+            r.peak_hydrostatic,
+            r.peak_principal,
+            r.peak_von_mises,
+            r.elastic_energy,
+            r.chemical_energy,
+            r.wall
+        )
+        .and_then(|_| self.file.flush())
+        .map_err(io_err(&self.path, "write"))
+    }
+}
+
+/// `run.log`: one line per noteworthy event (rejected step attempts and their causes, a run
+/// stopping early), flushed as written.
+pub struct RunLog {
+    path: PathBuf,
+    file: BufWriter<File>,
+}
+
+impl RunLog {
+    /// Create (truncate) the log.
+    pub fn create(path: &Path) -> Result<RunLog, IoError> {
+        let file = File::create(path).map_err(io_err(path, "create"))?;
+        Ok(RunLog {
+            path: path.to_path_buf(),
+            file: BufWriter::new(file),
+        })
+    }
+
+    /// Append one line.
+    pub fn note(&mut self, line: &str) -> Result<(), IoError> {
+        writeln!(self.file, "{line}")
+            .and_then(|_| self.file.flush())
+            .map_err(io_err(&self.path, "write"))
+    }
+}
+
+/// Values of a field at every mesh node (entity-major, `n_components` per node). Nodes without
+/// a DOF of this field (mid-side nodes of a linear field on a quadratic mesh) get the value
+/// interpolated by the field's own shape functions.
+pub fn nodal_field(mesh: &Mesh, dofs: &DofMap, field: FieldHandle, x: &[f64]) -> Vec<f64> {
+    let spec = dofs.spec(field);
+    let nc = spec.n_components;
+    let mut out = vec![f64::NAN; mesh.n_points() * nc];
+    let mut done = vec![false; mesh.n_points()];
+    let mut values = Vec::new();
+    let mut grads = Vec::new();
+    for (id, kind, nodes) in mesh.cells() {
+        let sk = space_kind(kind, spec.order).expect("validated by the DOF map");
+        let local = &dofs.cell_dofs(id)[dofs.local_range(field, kind)];
+        let n_space = sk.n_nodes();
+        values.resize(n_space, 0.0);
+        grads.resize(n_space, [0.0; 3]);
+        let reference = kind.reference_nodes();
+        for (a, &node) in nodes.iter().enumerate() {
+            if done[node] {
+                continue;
+            }
+            if a < n_space {
+                // Space nodes are the first nodes of the cell (corners for a linear space).
+                for comp in 0..nc {
+                    out[node * nc + comp] = x[local[a * nc + comp]];
+                }
+            } else {
+                eval_into(sk, reference[a], &mut values, &mut grads);
+                for comp in 0..nc {
+                    out[node * nc + comp] = (0..n_space)
+                        .map(|b| values[b] * x[local[b * nc + comp]])
+                        .sum();
+                }
+            }
+            done[node] = true;
+        }
+    }
+    out
+}
+
+/// Write one snapshot.
+pub struct Snapshot<'a> {
+    pub u: Vec<f64>,
+    pub c: Vec<f64>,
+    pub mu: Vec<f64>,
+    pub stress: &'a [Voigt],
+    pub flux: &'a [[f64; 3]],
+    /// Material index of each cell.
+    pub material: &'a [u32],
+}
+
+/// One value of a written array, for an independent reader to check:
+/// name, components per entity, flat index, value.
+pub type Probe = (String, usize, usize, f64);
+
+/// Write `snap` to `dir/fields_NNNN.vtu` and register it in `pvd` at time `t`. Returns one
+/// probe per point array (the value at the middle node) and the file name.
+pub fn write_snapshot(
+    dir: &Path,
+    index: usize,
+    t: f64,
+    mesh: &Mesh,
+    snap: Snapshot<'_>,
+    pvd: &mut PvdWriter,
+) -> Result<(String, Vec<Probe>), IoError> {
+    let name = format!("fields_{index:04}.vtu");
+    let stress: Vec<f64> = snap.stress.iter().flat_map(|s| s.iter().copied()).collect();
+    let scalar = |f: fn(&Voigt) -> f64| snap.stress.iter().map(f).collect::<Vec<f64>>();
+    let flux: Vec<f64> = snap
+        .flux
+        .iter()
+        .flat_map(|f| f[..mesh.dim].iter().copied())
+        .collect();
+    let points = vec![
+        FieldData::new("u", FieldKind::Vector, snap.u),
+        FieldData::new("c", FieldKind::Scalar, snap.c),
+        FieldData::new("mu", FieldKind::Scalar, snap.mu),
+        FieldData::new("stress", FieldKind::SymTensor, stress),
+        FieldData::new("hydrostatic_stress", FieldKind::Scalar, scalar(hydrostatic)),
+        FieldData::new("von_mises_stress", FieldKind::Scalar, scalar(von_mises)),
+        FieldData::new(
+            "max_principal_stress",
+            FieldKind::Scalar,
+            scalar(max_principal),
+        ),
+        FieldData::new("flux", FieldKind::Vector, flux),
+    ];
+    let cells = vec![FieldData::new(
+        "material",
+        FieldKind::Scalar,
+        snap.material.iter().map(|&m| m as f64).collect(),
+    )];
+    write_vtu(&dir.join(&name), mesh, &points, &cells)?;
+    pvd.add(t, &name);
+    pvd.write()?;
+    let middle = mesh.n_points() / 2;
+    let probes = points
+        .iter()
+        .map(|f| {
+            let nc = match f.kind {
+                FieldKind::Scalar => 1,
+                // Vectors are written padded to 3 components.
+                FieldKind::Vector => 3,
+                FieldKind::SymTensor => 6,
+            };
+            let stored = f.values.len() / mesh.n_points();
+            (f.name.clone(), nc, middle * nc, f.values[middle * stored])
+        })
+        .collect();
+    Ok((name, probes))
+}
+
+/// Write a small JSON document atomically (keys and values already formatted).
+pub fn write_json(path: &Path, entries: &[(&str, String)]) -> Result<(), IoError> {
+    let mut s = String::from("{\n");
+    for (i, (k, v)) in entries.iter().enumerate() {
+        s.push_str(&format!("  \"{k}\": {v}"));
+        s.push_str(if i + 1 < entries.len() { ",\n" } else { "\n" });
+    }
+    s.push_str("}\n");
+    write_atomic(path, s.as_bytes())
+}
+
+/// A JSON string literal.
+pub fn json_string(s: &str) -> String {
+    let mut out = String::from("\"");
+    for ch in s.chars() {
+        match ch {
+            '"' => out.push_str("\\\""),
+            '\\' => out.push_str("\\\\"),
+            '\n' => out.push_str("\\n"),
+            c if (c as u32) < 0x20 => out.push_str(&format!("\\u{:04x}", c as u32)),
+            c => out.push(c),
+        }
+    }
+    out.push('"');
+    out
+}
+
+/// A JSON number (non-finite values become null).
+pub fn json_number(v: f64) -> String {
+    if v.is_finite() {
+        format!("{v:e}")
+    } else {
+        "null".to_string()
+    }
+}

@@ -1,0 +1,236 @@
+//! Bad scenario files: every mistake is reported before computing, with the file, line and column
+//! of the value at fault and what was expected (issue acceptance: "each bad-input case has a test
+//! that checks the message"). The base scenario is valid; each case changes one thing.
+
+use std::path::Path;
+
+use dilata_run::{build_model, check_model, RunError};
+
+const BASE: &str = r#"title = "slab"
+[body]
+geometry = "plane_strain"
+shape = { kind = "rectangle", size = [1e-3, 2e-4], cells = [6, 2], element = "quad4" }
+
+[[body.zone]]
+name = "skin"
+min = [0.0, 0.0]
+max = [2e-4, 2e-4]
+
+[[material]]
+name = "host"
+young_modulus = 10e9
+poisson_ratio = 0.3
+partial_molar_volume = 3e-6
+reference_concentration = 100.0
+diffusivity = 1e-12
+
+[initial]
+concentration = 100.0
+
+[[boundary]]
+on = "left"
+u_x = 0.0
+
+[[boundary]]
+on = "bottom"
+u_y = 0.0
+
+[[stage]]
+name = "soak"
+duration = 10.0
+
+[[stage.boundary]]
+on = "right"
+c = 200.0
+"#;
+
+fn error_of(text: &str) -> String {
+    match build_model(text.to_string(), "case.toml", Path::new(".")) {
+        Ok(model) => match check_model(&model) {
+            Ok(()) => panic!("scenario was accepted:\n{text}"),
+            Err(e) => e.to_string(),
+        },
+        Err(e) => e.to_string(),
+    }
+}
+
+/// Replace the first occurrence of `from` (which must exist) in the base scenario.
+fn with(from: &str, to: &str) -> String {
+    assert!(BASE.contains(from), "{from}");
+    BASE.replacen(from, to, 1)
+}
+
+/// 1-based line of the first occurrence of `needle` in `text`.
+fn line_of(text: &str, needle: &str) -> usize {
+    text[..text.find(needle).expect(needle)]
+        .matches('\n')
+        .count()
+        + 1
+}
+
+#[test]
+fn the_base_scenario_is_valid() {
+    let model = build_model(BASE.to_string(), "case.toml", Path::new(".")).unwrap();
+    check_model(&model).unwrap();
+    assert_eq!(model.stages.len(), 1);
+}
+
+#[test]
+fn unknown_key_names_line_column_and_valid_keys() {
+    let text = with("young_modulus = 10e9", "youngs_modulus = 10e9");
+    let e = error_of(&text);
+    let line = line_of(&text, "youngs_modulus");
+    assert!(e.starts_with(&format!("case.toml:{line}:1:")), "{e}");
+    assert!(
+        e.contains("youngs_modulus") && e.contains("young_modulus"),
+        "{e}"
+    );
+}
+
+#[test]
+fn wrong_type_is_located() {
+    let text = with("duration = 10.0", "duration = \"long\"");
+    let e = error_of(&text);
+    let line = line_of(&text, "\"long\"");
+    assert!(e.starts_with(&format!("case.toml:{line}:12:")), "{e}");
+    assert!(e.contains("invalid type"), "{e}");
+}
+
+#[test]
+fn syntax_error_is_located() {
+    let text = with("name = \"soak\"", "name = \"soak");
+    let e = error_of(&text);
+    let line = line_of(&text, "\"soak");
+    assert!(e.starts_with(&format!("case.toml:{line}:")), "{e}");
+}
+
+#[test]
+fn unknown_boundary_lists_the_boundaries() {
+    let text = with("on = \"right\"", "on = \"rigth\"");
+    let e = error_of(&text);
+    let line = line_of(&text, "\"rigth\"");
+    assert!(e.starts_with(&format!("case.toml:{line}:6:")), "{e}");
+    assert!(e.contains("unknown boundary 'rigth'"), "{e}");
+    assert!(e.contains("bottom, left, right, top"), "{e}");
+}
+
+#[test]
+fn unknown_zone_lists_the_zones() {
+    let text = with("name = \"host\"", "name = \"host\"\nzones = [\"skn\"]");
+    let e = error_of(&text);
+    assert!(
+        e.contains("unknown zone 'skn'; the zones are: domain, skin"),
+        "{e}"
+    );
+    let line = line_of(&text, "\"skn\"");
+    assert!(e.starts_with(&format!("case.toml:{line}:")), "{e}");
+}
+
+#[test]
+fn out_of_range_material_value_names_the_material() {
+    let e = error_of(&with("poisson_ratio = 0.3", "poisson_ratio = 0.6"));
+    assert!(e.contains("material 'host'"), "{e}");
+    assert!(e.to_lowercase().contains("poisson"), "{e}");
+    // The material table's header line.
+    let line = line_of(BASE, "[[material]]");
+    assert!(e.starts_with(&format!("case.toml:{line}:")), "{e}");
+}
+
+#[test]
+fn non_positive_duration_is_refused() {
+    let e = error_of(&with("duration = 10.0", "duration = -1.0"));
+    assert!(
+        e.contains("stage 'soak'") && e.contains("must be positive"),
+        "{e}"
+    );
+}
+
+#[test]
+fn two_species_conditions_on_one_boundary_are_refused() {
+    let e = error_of(&with("c = 200.0", "c = 200.0\ninward_flux = 1e-6"));
+    assert!(e.contains("at most one species condition"), "{e}");
+    assert!(e.contains("c, inward_flux"), "{e}");
+}
+
+#[test]
+fn a_stage_may_not_repeat_a_top_level_condition() {
+    let e = error_of(&with(
+        "c = 200.0",
+        "c = 200.0\n\n[[stage.boundary]]\non = \"left\"\nu_x = 1e-9",
+    ));
+    assert!(e.contains("already has a condition on u_x"), "{e}");
+}
+
+#[test]
+fn formula_with_unknown_variable_is_located() {
+    let text = with(
+        "[initial]\nconcentration = 100.0",
+        "[initial]\nconcentration = \"100 + 5*t\"",
+    );
+    let e = error_of(&text);
+    let line = line_of(&text, "\"100 + 5*t\"");
+    assert!(e.starts_with(&format!("case.toml:{line}:")), "{e}");
+    assert!(e.contains("unknown variable 't'"), "{e}");
+}
+
+#[test]
+fn third_displacement_component_in_2d_is_refused() {
+    let e = error_of(&with("u_y = 0.0", "u_z = 0.0"));
+    assert!(e.contains("u_z does not exist in a 2D body"), "{e}");
+}
+
+#[test]
+fn time_table_lengths_must_match() {
+    let e = error_of(&with(
+        "c = 200.0",
+        "c = { time = [0.0, 5.0], value = [100.0] }",
+    ));
+    assert!(e.contains("as many values as times"), "{e}");
+}
+
+#[test]
+fn prescribed_potential_needs_equal_orders() {
+    let text = with("c = 200.0", "mu = 100.0").replacen(
+        "[[material]]",
+        "[orders]\nu = 1\nc = 1\nmu = 1\n\n[[material]]",
+        1,
+    );
+    // Equal orders: accepted.
+    build_model(text.clone(), "case.toml", Path::new(".")).unwrap();
+    let quadratic = text
+        .replacen("element = \"quad4\"", "element = \"quad8\"", 1)
+        .replacen("mu = 1\n", "mu = 2\n", 1);
+    let e = error_of(&quadratic);
+    assert!(e.contains("equal orders of c and mu"), "{e}");
+}
+
+#[test]
+fn missing_supports_list_the_free_rigid_modes() {
+    let text = with("on = \"bottom\"\nu_y = 0.0", "on = \"bottom\"\nc = 100.0");
+    let e = error_of(&text);
+    assert!(e.contains("rigid-body modes free"), "{e}");
+    assert!(e.contains("body.rigid_modes = \"pin\""), "{e}");
+    // With pinning requested the same scenario checks.
+    let pinned = text.replacen("[[body.zone]]", "rigid_modes = \"pin\"\n\n[[body.zone]]", 1);
+    let model = build_model(pinned, "case.toml", Path::new(".")).unwrap();
+    check_model(&model).unwrap();
+}
+
+#[test]
+fn missing_mesh_file_names_the_file() {
+    let text = with(
+        "shape = { kind = \"rectangle\", size = [1e-3, 2e-4], cells = [6, 2], element = \"quad4\" }",
+        "mesh = \"no-such-file.msh\"",
+    );
+    let e = error_of(&text);
+    assert!(e.contains("no-such-file.msh"), "{e}");
+}
+
+#[test]
+fn unreadable_scenario_file_is_reported() {
+    let e = dilata_run::load_model(Path::new("/no/such/scenario.toml"))
+        .err()
+        .expect("missing file");
+    assert!(matches!(e, RunError::Read { .. }), "{e}");
+    assert!(e.to_string().contains("/no/such/scenario.toml"), "{e}");
+}
