@@ -353,12 +353,29 @@ fn equilibrate_into(
     const TOLERANCE: f64 = 0.05;
     let p = a.pattern.as_ref();
     let n = p.n_rows;
-    row_scale.clear();
-    row_scale.resize(n, 1.0);
-    col_scale.clear();
-    col_scale.resize(p.n_cols, 1.0);
+    // Warm start: the scaling of the previous factorisation of this pattern (Newton iterations
+    // and time steps change the values little), which usually leaves one or two sweeps to do.
+    let warm = row_scale.len() == n
+        && col_scale.len() == p.n_cols
+        && row_scale
+            .iter()
+            .chain(col_scale.iter())
+            .all(|s| s.is_finite() && *s > 0.0);
+    if !warm {
+        row_scale.clear();
+        row_scale.resize(n, 1.0);
+        col_scale.clear();
+        col_scale.resize(p.n_cols, 1.0);
+    }
     scaled.clear();
     scaled.extend_from_slice(&a.values);
+    if warm {
+        for i in 0..n {
+            for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+                scaled[k] = row_scale[i] * a.values[k] * col_scale[p.col_idx[k]];
+            }
+        }
+    }
     let mut row_max = vec![0.0f64; n];
     let mut col_max = vec![0.0f64; p.n_cols];
     for sweep in 0..MAX_SWEEPS {
@@ -381,7 +398,7 @@ fn equilibrate_into(
             .iter()
             .chain(&col_max)
             .fold(0.0f64, |m, &v| m.max((1.0 - v).abs()));
-        if off <= TOLERANCE && sweep > 0 {
+        if off <= TOLERANCE && (sweep > 0 || warm) {
             break;
         }
         for (r, m) in row_scale.iter_mut().zip(&row_max) {

@@ -5,6 +5,7 @@
 use exmex::{Express, FlatEx};
 
 /// A parsed formula of position.
+#[derive(Debug)]
 pub struct Formula {
     expr: FlatEx<f64>,
     /// For each variable of `expr` (alphabetical), the coordinate index it reads.

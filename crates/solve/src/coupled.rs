@@ -413,4 +413,26 @@ impl TransientSystem for CoupledProblem<'_> {
     fn is_dynamic(&self, i: usize) -> bool {
         self.dofs.field_range(self.fields.c).contains(&i)
     }
+
+    /// Every nodal concentration must lie in the range of the chemical and mobility laws of
+    /// every cell it belongs to: the kernel only sees quadrature points, where an oscillating
+    /// field can still look admissible while a node has left the range.
+    fn check_solution(&self, x: &[f64]) -> Result<(), String> {
+        for (cell, kind, _) in self.mesh.cells() {
+            let law = self.laws.law(cell).parts();
+            let range = self.dofs.local_range(self.fields.c, kind);
+            for &d in &self.dofs.cell_dofs(cell)[range] {
+                let c = x[d];
+                let verdict = law
+                    .chemical
+                    .evaluate(c)
+                    .map(|_| ())
+                    .and_then(|()| law.mobility.evaluate(c).map(|_| ()));
+                if let Err(e) = verdict {
+                    return Err(format!("cell {cell}, nodal concentration: {e}"));
+                }
+            }
+        }
+        Ok(())
+    }
 }

@@ -31,6 +31,13 @@ pub trait TransientSystem: DiscreteSystem {
         let _ = i;
         true
     }
+    /// Whether a converged solution of a step is admissible (e.g. every nodal concentration
+    /// inside the range of its law). An `Err` rejects the step, which is retried smaller; the
+    /// message says where and why. Default: always admissible.
+    fn check_solution(&self, x: &[f64]) -> Result<(), String> {
+        let _ = x;
+        Ok(())
+    }
 }
 
 /// Time-stepping scheme.
@@ -199,6 +206,12 @@ impl Integrator {
                     continue;
                 }
             };
+            if let Err(why) = system.check_solution(&x) {
+                rejections.push(why);
+                self.state.n_rejected += 1;
+                dt *= self.params.cut_factor;
+                continue;
+            }
             // Error estimate and step proposal.
             let (error, dt_next) = match self.params.sizing {
                 StepSizing::Fixed { dt: fixed } => (None, fixed),

@@ -1,0 +1,86 @@
+//! A run that cannot go on stops with a message naming the stage, the time, the cause and the
+//! cell (with its material and zones), and keeps every result written so far.
+
+use std::path::Path;
+
+use dilata_run::{build_model, run, RunError, RunOptions};
+
+/// A lattice-gas slab filled through its left edge by a flux far larger than diffusion can carry
+/// away: the concentration at the edge must pass the site concentration, which the law refuses.
+const OVERFILLED: &str = r#"title = "overfilled slab"
+[body]
+geometry = "plane_strain"
+shape = { kind = "rectangle", size = [1e-4, 2e-5], cells = [8, 2], element = "quad4" }
+
+[[body.zone]]
+name = "entry"
+min = [0.0, 0.0]
+max = [2e-5, 2e-5]
+
+[[material]]
+name = "host"
+young_modulus = 10e9
+poisson_ratio = 0.3
+partial_molar_volume = 1e-6
+free_energy = "lattice"
+max_concentration = 1000.0
+diffusivity = 1e-15
+
+[initial]
+concentration = 100.0
+
+[[boundary]]
+on = "left"
+u_x = 0.0
+
+[[boundary]]
+on = "bottom"
+u_y = 0.0
+
+[[stage]]
+name = "flood"
+duration = 100.0
+
+[[stage.boundary]]
+on = "left"
+inward_flux = 1.0
+
+[time]
+first_step = 1.0
+min_step = 1e-6
+"#;
+
+#[test]
+fn a_stalled_run_names_the_cell_and_keeps_its_results() {
+    let model = build_model(OVERFILLED.to_string(), "overfilled.toml", Path::new(".")).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let err = run(
+        &model,
+        &RunOptions {
+            out: dir.path().to_path_buf(),
+            threads: Some(1),
+        },
+        &mut |_| {},
+    )
+    .unwrap_err();
+    let text = err.to_string();
+    println!("{text}");
+    match &err {
+        RunError::Stalled { stage, time, .. } => {
+            assert_eq!(stage, "flood");
+            assert!(*time < 100.0);
+        }
+        other => panic!("expected a stalled run, got {other}"),
+    }
+    assert!(text.contains("below the minimum"), "{text}");
+    assert!(text.contains("material 'host'"), "{text}");
+    assert!(text.contains("zones [domain, entry]"), "{text}");
+    assert!(text.contains(&dir.path().display().to_string()), "{text}");
+    // Results so far: the initial row at least, a snapshot of the last good state, the log.
+    let history = std::fs::read_to_string(dir.path().join("history.csv")).unwrap();
+    assert!(history.lines().count() >= 2, "{history}");
+    let pvd = std::fs::read_to_string(dir.path().join("fields.pvd")).unwrap();
+    assert!(pvd.matches("<DataSet").count() >= 2, "{pvd}");
+    let log = std::fs::read_to_string(dir.path().join("run.log")).unwrap();
+    assert!(log.contains("stage 'flood' stopped"), "{log}");
+}
