@@ -331,6 +331,9 @@ pub fn run(
         problem.constraints = setup.constraints;
         problem.loads = setup.loads;
         problem.boundary_update = Some(setup.update);
+        problem
+            .check_setup()
+            .map_err(|e| RunError::Numerical(format!("stage '{}': {e}", plan.name)))?;
         // Restart the multistep history at a stage change (the loads may jump).
         integrator.state.past.clear();
         let mut since_restart = 0usize;
