@@ -26,19 +26,16 @@
 //! coupling term is of order one (`RT = 1`, `D = 1`, unit square, times of order one).
 
 mod common;
+#[path = "coupled_mms/fields.rs"]
+mod fields;
 
-use std::f64::consts::{FRAC_PI_2, PI};
+use std::f64::consts::PI;
 use std::sync::Arc;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{FieldSpec, GeometryMode};
 use dilata_linalg::{DirectParams, FaerLu, LinearSolver, Ordering, Parallelism};
-use dilata_material::chemical::{ChemicalLaw, LatticeGasParams, GAS_CONSTANT};
-use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw, PointInput, PointOutput};
-use dilata_material::elastic::{Isotropic, Voigt};
-use dilata_material::mobility::{Diffusivity, LatticeGasMobilityParams, MobilityLaw};
-use dilata_material::stiffness::StiffnessLaw;
-use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+use dilata_material::coupled::PointOutput;
 use dilata_mesh::generate::{rectangle, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::{CoupledFields, LawMap};
@@ -47,305 +44,18 @@ use dilata_solve::newton::NewtonParams;
 use dilata_solve::time::{Integrator, IntegratorParams, Scheme, StepSizing};
 use dilata_solve::CoupledProblem;
 
-/// Temperature with `RT = 1` (scaled units).
-const TEMPERATURE: f64 = 1.0 / GAS_CONSTANT;
-const C_MAX: f64 = 4.0;
-/// Partial molar volume of the studies (scaled units).
-const OMEGA: f64 = 0.2;
-
-/// The law with partial molar volume `omega` (0.2 in every study but the one that switches off
-/// the strain feedback).
-fn law(omega: f64) -> CoupledPointLaw {
-    CoupledPointLaw::new(CoupledLawParts {
-        stiffness: StiffnessLaw::isotropic(Isotropic::new(5.0, 0.3).unwrap()),
-        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
-            partial_molar_volume: omega,
-            c_ref: 1.0,
-        })
-        .unwrap(),
-        chemical: ChemicalLaw::lattice_gas(LatticeGasParams {
-            mu0: 0.0,
-            temperature: TEMPERATURE,
-            c_max: C_MAX,
-            interaction: 0.5,
-        })
-        .unwrap(),
-        mobility: MobilityLaw::lattice_gas(LatticeGasMobilityParams {
-            diffusivity: Diffusivity::isotropic(1.0).unwrap(),
-            temperature: TEMPERATURE,
-            c_max: C_MAX,
-        })
-        .unwrap(),
-    })
-    .unwrap()
-}
-
-/// A function of (x, y): quadratic polynomial plus sums of `A sin(kx x + px) sin(ky y + py)`.
-#[derive(Clone, Debug, Default)]
-struct Spatial {
-    /// Coefficients of 1, x, y, x², xy, y².
-    poly: [f64; 6],
-    /// Terms `[A, kx, px, ky, py]`.
-    trig: Vec<[f64; 5]>,
-}
-
-impl Spatial {
-    fn poly(poly: [f64; 6]) -> Self {
-        Spatial {
-            poly,
-            trig: Vec::new(),
-        }
-    }
-
-    fn trig(constant: f64, trig: Vec<[f64; 5]>) -> Self {
-        Spatial {
-            poly: [constant, 0.0, 0.0, 0.0, 0.0, 0.0],
-            trig,
-        }
-    }
-
-    /// `∂^m/∂x^m ∂^n/∂y^n` at (x, y), `m + n ≤ 2`; uses `d/dz sin(kz + p) = k sin(kz + p + π/2)`.
-    fn derivative(&self, x: f64, y: f64, m: i32, n: i32) -> f64 {
-        let [a0, a1, a2, a3, a4, a5] = self.poly;
-        let poly = match (m, n) {
-            (0, 0) => a0 + a1 * x + a2 * y + a3 * x * x + a4 * x * y + a5 * y * y,
-            (1, 0) => a1 + 2.0 * a3 * x + a4 * y,
-            (0, 1) => a2 + a4 * x + 2.0 * a5 * y,
-            (2, 0) => 2.0 * a3,
-            (1, 1) => a4,
-            (0, 2) => 2.0 * a5,
-            _ => panic!("derivative order ({m}, {n}) not provided"),
-        };
-        let trig: f64 = self
-            .trig
-            .iter()
-            .map(|&[a, kx, px, ky, py]| {
-                a * kx.powi(m)
-                    * ky.powi(n)
-                    * (kx * x + px + f64::from(m) * FRAC_PI_2).sin()
-                    * (ky * y + py + f64::from(n) * FRAC_PI_2).sin()
-            })
-            .sum();
-        poly + trig
-    }
-}
-
-/// Time factor `τ(t)` of the moving part.
-#[derive(Clone, Copy, Debug)]
-enum Clock {
-    /// `τ = t`.
-    Linear,
-    /// `τ = sin(ω t)`.
-    Sine(f64),
-}
-
-impl Clock {
-    fn value(self, t: f64) -> f64 {
-        match self {
-            Clock::Linear => t,
-            Clock::Sine(w) => (w * t).sin(),
-        }
-    }
-    fn rate(self, t: f64) -> f64 {
-        match self {
-            Clock::Linear => 1.0,
-            Clock::Sine(w) => w * (w * t).cos(),
-        }
-    }
-}
-
-/// `f(x, t) = steady(x) + τ(t) moving(x)`.
-#[derive(Clone, Debug)]
-struct Field {
-    steady: Spatial,
-    moving: Spatial,
-    clock: Clock,
-}
-
-impl Field {
-    fn d(&self, p: [f64; 3], t: f64, m: i32, n: i32) -> f64 {
-        self.steady.derivative(p[0], p[1], m, n)
-            + self.clock.value(t) * self.moving.derivative(p[0], p[1], m, n)
-    }
-    fn value(&self, p: [f64; 3], t: f64) -> f64 {
-        self.d(p, t, 0, 0)
-    }
-    fn rate(&self, p: [f64; 3], t: f64) -> f64 {
-        self.clock.rate(t) * self.moving.derivative(p[0], p[1], 0, 0)
-    }
-}
-
-/// The four manufactured fields and the law they are manufactured for.
-struct Manufactured {
-    ux: Field,
-    uy: Field,
-    c: Field,
-    mu: Field,
-    law: CoupledPointLaw,
-}
-
-/// Which unknown a DOF or an error belongs to.
-#[derive(Clone, Copy, Debug, PartialEq)]
-enum Which {
-    Ux,
-    Uy,
-    C,
-    Mu,
-}
-
-impl Manufactured {
-    fn field(&self, which: Which) -> &Field {
-        match which {
-            Which::Ux => &self.ux,
-            Which::Uy => &self.uy,
-            Which::C => &self.c,
-            Which::Mu => &self.mu,
-        }
-    }
-
-    /// Exact strain (Voigt, engineering shear; plane strain: `ε_zz = 0`).
-    fn strain(&self, p: [f64; 3], t: f64) -> Voigt {
-        let (u, v) = (&self.ux, &self.uy);
-        Voigt::new(
-            u.d(p, t, 1, 0),
-            v.d(p, t, 0, 1),
-            0.0,
-            u.d(p, t, 0, 1) + v.d(p, t, 1, 0),
-            0.0,
-            0.0,
-        )
-    }
-
-    /// The point law at the exact state.
-    fn point(&self, p: [f64; 3], t: f64) -> PointOutput {
-        let mut input = PointInput {
-            strain: self.strain(p, t),
-            c: self.c.value(p, t),
-            grad_mu: Default::default(),
-        };
-        input.grad_mu[0] = self.mu.d(p, t, 1, 0);
-        input.grad_mu[1] = self.mu.d(p, t, 0, 1);
-        self.law
-            .evaluate(&input)
-            .expect("the manufactured concentration lies inside the law's range")
-    }
-
-    /// `b = −div σ`, with `∂_j σ = (∂σ/∂ε) ∂_j ε + (∂σ/∂c) ∂_j c` (exact chain rule).
-    fn body_force(&self, p: [f64; 3], t: f64) -> [f64; 3] {
-        let out = self.point(p, t);
-        let (u, v) = (&self.ux, &self.uy);
-        let d_strain_dx = Voigt::new(
-            u.d(p, t, 2, 0),
-            v.d(p, t, 1, 1),
-            0.0,
-            u.d(p, t, 1, 1) + v.d(p, t, 2, 0),
-            0.0,
-            0.0,
-        );
-        let d_strain_dy = Voigt::new(
-            u.d(p, t, 1, 1),
-            v.d(p, t, 0, 2),
-            0.0,
-            u.d(p, t, 0, 2) + v.d(p, t, 1, 1),
-            0.0,
-            0.0,
-        );
-        let ds_dx = out.dstress_dstrain * d_strain_dx + out.dstress_dc * self.c.d(p, t, 1, 0);
-        let ds_dy = out.dstress_dstrain * d_strain_dy + out.dstress_dc * self.c.d(p, t, 0, 1);
-        // Voigt order [xx, yy, zz, xy, yz, xz].
-        [-(ds_dx[0] + ds_dy[3]), -(ds_dx[3] + ds_dy[1]), 0.0]
-    }
-
-    /// `s = ∂c/∂t + div J`, `div J = grad c · ∂J/∂c − M : Hess μ` (exact chain rule of
-    /// `J = −M(c) grad μ`).
-    fn mass_source(&self, p: [f64; 3], t: f64) -> f64 {
-        let out = self.point(p, t);
-        let grad_c = [self.c.d(p, t, 1, 0), self.c.d(p, t, 0, 1)];
-        let hess = [
-            [self.mu.d(p, t, 2, 0), self.mu.d(p, t, 1, 1)],
-            [self.mu.d(p, t, 1, 1), self.mu.d(p, t, 0, 2)],
-        ];
-        let mut div_j = grad_c[0] * out.dflux_dc[0] + grad_c[1] * out.dflux_dc[1];
-        for i in 0..2 {
-            for j in 0..2 {
-                div_j -= out.mobility[(i, j)] * hess[i][j];
-            }
-        }
-        self.c.rate(p, t) + div_j
-    }
-
-    /// `g = μ* − μ_local(ε*, c*)`.
-    fn potential_source(&self, p: [f64; 3], t: f64) -> f64 {
-        self.mu.value(p, t) - self.point(p, t).mu_local
-    }
-}
-
-/// Smooth, non-polynomial fields, linear in time (for the rates in space), for the law with
-/// partial molar volume `omega`.
-fn smooth_fields(omega: f64) -> Manufactured {
-    let linear = |steady: Spatial, moving: Spatial| Field {
-        steady,
-        moving,
-        clock: Clock::Linear,
-    };
-    Manufactured {
-        ux: linear(
-            Spatial::trig(0.0, vec![[0.1, 1.1, 0.3, 0.8, 1.2]]),
-            Spatial::trig(0.0, vec![[0.05, 0.7, 0.0, 1.3, 0.5]]),
-        ),
-        uy: linear(
-            Spatial::trig(0.0, vec![[-0.08, 0.9, 1.0, 1.2, 0.2]]),
-            Spatial::trig(0.0, vec![[0.04, 1.4, 0.6, 0.6, 0.1]]),
-        ),
-        // c in [1.05, 2.15] for t ≤ 0.5: well inside (0, c_max = 4).
-        c: linear(
-            Spatial::trig(1.6, vec![[0.4, 1.3, 0.4, 0.7, 1.0]]),
-            Spatial::trig(0.0, vec![[0.3, 0.8, 0.2, 1.1, 0.7]]),
-        ),
-        mu: linear(
-            Spatial::trig(0.2, vec![[0.5, 1.2, 0.1, 0.9, 0.6]]),
-            Spatial::trig(0.0, vec![[0.3, 0.6, 0.9, 1.5, 0.3]]),
-        ),
-        law: law(omega),
-    }
-}
-
-/// Fields in the finite-element space (u, μ quadratic and c linear in x, y), periodic in time
-/// (for the rates in time; see `time_rates`).
-fn polynomial_fields() -> Manufactured {
-    let sine = |steady: [f64; 6], moving: [f64; 6]| Field {
-        steady: Spatial::poly(steady),
-        moving: Spatial::poly(moving),
-        clock: Clock::Sine(2.0),
-    };
-    Manufactured {
-        ux: sine(
-            [0.0, 0.05, 0.02, 0.03, -0.04, 0.02],
-            [0.0, 0.02, 0.0, -0.05, 0.03, 0.04],
-        ),
-        uy: sine(
-            [0.0, -0.01, 0.04, 0.02, 0.05, -0.03],
-            [0.0, 0.0, 0.03, 0.04, -0.02, 0.05],
-        ),
-        // c in [0.6, 3.0] on the unit square: inside (0, c_max = 4).
-        c: sine(
-            [1.8, 0.3, -0.2, 0.0, 0.0, 0.0],
-            [0.0, 0.4, 0.3, 0.0, 0.0, 0.0],
-        ),
-        mu: sine(
-            [0.1, 0.2, -0.3, 0.4, 0.2, -0.1],
-            [0.0, 0.3, 0.2, -0.2, 0.1, 0.3],
-        ),
-        law: law(OMEGA),
-    }
-}
+use fields::{polynomial_fields, smooth_fields, Field, Manufactured, Which, OMEGA};
 
 /// The derived sources equal central differences of the law's stress and flux along the exact
 /// fields (step 1e-4: truncation ~1e-8 relative, far below the tolerance 1e-6).
 #[test]
 fn manufactured_sources_match_finite_differences() {
     let h = 1e-4;
-    for m in [smooth_fields(OMEGA), polynomial_fields()] {
+    for m in [
+        smooth_fields(OMEGA, GeometryMode::PlaneStrain),
+        smooth_fields(OMEGA, GeometryMode::Axisymmetric),
+        polynomial_fields(),
+    ] {
         for (p, t) in [([0.3, 0.7, 0.0], 0.2), ([0.9, 0.15, 0.0], 0.45)] {
             let shifted = |d: usize, s: f64| {
                 let mut q = p;
@@ -355,9 +65,20 @@ fn manufactured_sources_match_finite_differences() {
             let central = |d: usize, f: &dyn Fn(&PointOutput) -> f64| {
                 (f(&shifted(d, h)) - f(&shifted(d, -h))) / (2.0 * h)
             };
+            // Hoop terms of the axisymmetric divergence (zero in plane strain).
+            let (hoop_r, hoop_z, flux_r) = if m.axisymmetric() {
+                let o = m.point(p, t);
+                (
+                    (o.stress[0] - o.stress[2]) / p[0],
+                    o.stress[3] / p[0],
+                    o.flux[0] / p[0],
+                )
+            } else {
+                (0.0, 0.0, 0.0)
+            };
             let b_fd = [
-                -(central(0, &|o| o.stress[0]) + central(1, &|o| o.stress[3])),
-                -(central(0, &|o| o.stress[3]) + central(1, &|o| o.stress[1])),
+                -(central(0, &|o| o.stress[0]) + central(1, &|o| o.stress[3]) + hoop_r),
+                -(central(0, &|o| o.stress[3]) + central(1, &|o| o.stress[1]) + hoop_z),
             ];
             let b = m.body_force(p, t);
             for i in 0..2 {
@@ -368,7 +89,7 @@ fn manufactured_sources_match_finite_differences() {
                     b_fd[i]
                 );
             }
-            let div_j = central(0, &|o| o.flux[0]) + central(1, &|o| o.flux[1]);
+            let div_j = central(0, &|o| o.flux[0]) + central(1, &|o| o.flux[1]) + flux_r;
             let s_fd = m.c.rate(p, t) + div_j;
             let s = m.mass_source(p, t);
             assert!((s - s_fd).abs() < 1e-6 * (1.0 + s.abs()), "s {s} vs {s_fd}");
@@ -490,7 +211,7 @@ fn solve_and_measure(m: &Arc<Manufactured>, run: &Run<'_>) -> Errors {
         mesh,
         dofs,
         fields,
-        GeometryMode::PlaneStrain,
+        m.mode,
         LawMap::uniform(m.law, mesh.n_cells()),
         Parallelism::Sequential,
     );
@@ -544,7 +265,7 @@ fn solve_and_measure(m: &Arc<Manufactured>, run: &Run<'_>) -> Errors {
             field: m.field(which),
             t,
         };
-        scalar_error_norms(mesh, &problem.dofs, f, GeometryMode::PlaneStrain, x, &exact)
+        scalar_error_norms(mesh, &problem.dofs, f, m.mode, x, &exact)
             .unwrap()
             .l2
     };
@@ -576,16 +297,16 @@ fn component_error(
         y[scalar.node_dof(f, node, 0).unwrap()] = x[from];
     }
     let frozen = Frozen { field: exact, t };
-    scalar_error_norms(mesh, &scalar, f, GeometryMode::PlaneStrain, &y, &frozen)
+    scalar_error_norms(mesh, &scalar, f, problem.mode, &y, &frozen)
         .unwrap()
         .l2
 }
 
-/// Unit square of `n × n` Quad8 cells, optionally smoothly distorted (as in
-/// tests/poisson_mms.rs: the cells become curved, the mesh family stays regular).
-fn square(n: usize, distorted: bool) -> Mesh {
+/// Unit square `[x0, x0 + 1] × [0, 1]` of `n × n` Quad8 cells, optionally smoothly distorted
+/// (as in tests/poisson_mms.rs: the cells become curved, the mesh family stays regular).
+fn square(n: usize, x0: f64, distorted: bool) -> Mesh {
     let mut mesh = rectangle(&RectangleParams {
-        origin: [0.0, 0.0],
+        origin: [x0, 0.0],
         lengths: [1.0, 1.0],
         n_cells: [n, n],
         kind: CellKind::Quad8,
@@ -593,8 +314,8 @@ fn square(n: usize, distorted: bool) -> Mesh {
     .unwrap();
     if distorted {
         for p in &mut mesh.points {
-            let (x, y) = (p[0], p[1]);
-            p[0] = x + 0.05 * (PI * x).sin() * (PI * y).sin();
+            let (x, y) = (p[0] - x0, p[1]);
+            p[0] = x0 + x + 0.05 * (PI * x).sin() * (PI * y).sin();
             p[1] = y + 0.04 * (PI * x).sin() * (2.0 * PI * y).sin();
         }
     }
@@ -610,15 +331,26 @@ const ALL: [Which; 4] = [Which::Ux, Which::Uy, Which::C, Which::Mu];
 
 /// Errors on a sequence of refined meshes; returns the printed table and the rates of the finest
 /// pair per field.
-fn space_study(orders: Orders, sizes: &[usize], omega: f64) -> (String, Vec<(Which, f64)>) {
-    let m = Arc::new(smooth_fields(omega));
+fn space_study(
+    orders: Orders,
+    sizes: &[usize],
+    omega: f64,
+    mode: GeometryMode,
+) -> (String, Vec<(Which, f64)>) {
+    let m = Arc::new(smooth_fields(omega, mode));
+    // Axisymmetric: r from 0.5 to 1.5, away from the axis.
+    let x0 = if mode == GeometryMode::Axisymmetric {
+        0.5
+    } else {
+        0.0
+    };
     let errors: Vec<Errors> = sizes
         .iter()
         .map(|&n| {
-            let mesh = square(n, true);
+            let mesh = square(n, x0, true);
             // BDF2 with 4 steps to t = 0.5. The exact solution is linear in time, so the time
             // error only acts on the (small, slowly varying) spatial error and is far below it;
-            // `space_errors_do_not_depend_on_the_step` checks this on the coarsest mesh.
+            // `space_errors_do_not_depend_on_the_step` checks this on the n = 8 mesh.
             solve_and_measure(
                 &m,
                 &Run {
@@ -683,10 +415,10 @@ fn expected_rate(orders: Orders, which: Which) -> f64 {
     }
 }
 
-fn check_space_rates(orders: Orders, omega: f64, only: &[Which]) {
-    let (table, finest) = space_study(orders, &[4, 8, 16, 32], omega);
+fn check_space_rates(orders: Orders, omega: f64, mode: GeometryMode) {
+    let (table, finest) = space_study(orders, &[4, 8, 16, 32], omega, mode);
     eprintln!("{table}");
-    for (w, r) in finest.into_iter().filter(|(w, _)| only.contains(w)) {
+    for (w, r) in finest {
         let expected = expected_rate(orders, w);
         assert!(
             (r - expected).abs() <= RATE_TOLERANCE,
@@ -698,13 +430,21 @@ fn check_space_rates(orders: Orders, omega: f64, only: &[Which]) {
 /// All fields quadratic (Quad8): L2 rate 3 for u_x, u_y and μ, 2 for c (see [`expected_rate`]).
 #[test]
 fn space_rates_all_quadratic() {
-    check_space_rates(Orders { u: 2, c: 2, mu: 2 }, OMEGA, &ALL);
+    check_space_rates(
+        Orders { u: 2, c: 2, mu: 2 },
+        OMEGA,
+        GeometryMode::PlaneStrain,
+    );
 }
 
 /// Quadratic u with linear c and μ (Quad8): L2 rate 2 for every field (see [`expected_rate`]).
 #[test]
 fn space_rates_quadratic_u_linear_c_mu() {
-    check_space_rates(Orders { u: 2, c: 1, mu: 1 }, OMEGA, &ALL);
+    check_space_rates(
+        Orders { u: 2, c: 1, mu: 1 },
+        OMEGA,
+        GeometryMode::PlaneStrain,
+    );
 }
 
 /// With a negligible partial molar volume (Ω = 1e-9: the strain no longer enters μ_local, and
@@ -713,7 +453,7 @@ fn space_rates_quadratic_u_linear_c_mu() {
 #[test]
 fn space_rate_of_c_without_strain_feedback() {
     let orders = Orders { u: 2, c: 2, mu: 2 };
-    let (table, finest) = space_study(orders, &[4, 8, 16, 32], 1e-9);
+    let (table, finest) = space_study(orders, &[4, 8, 16, 32], 1e-9, GeometryMode::PlaneStrain);
     eprintln!("Omega = 1e-9\n{table}");
     for (w, r) in finest {
         assert!(
@@ -727,8 +467,8 @@ fn space_rate_of_c_without_strain_feedback() {
 /// mesh by less than 1 % (all-quadratic orders, whose errors are the smallest).
 #[test]
 fn space_errors_do_not_depend_on_the_step() {
-    let m = Arc::new(smooth_fields(OMEGA));
-    let mesh = square(8, true);
+    let m = Arc::new(smooth_fields(OMEGA, GeometryMode::PlaneStrain));
+    let mesh = square(8, 0.0, true);
     let orders = Orders { u: 2, c: 2, mu: 2 };
     let run = |dt| {
         solve_and_measure(
@@ -763,7 +503,7 @@ fn space_errors_do_not_depend_on_the_step() {
 /// spatial approximation of it, smaller by a factor O(h³)).
 fn time_study(scheme: Scheme, dts: &[f64]) -> (String, f64) {
     let m = Arc::new(polynomial_fields());
-    let mesh = square(4, false);
+    let mesh = square(4, 0.0, false);
     let orders = Orders { u: 2, c: 2, mu: 2 };
     let errors: Vec<Errors> = dts
         .iter()
@@ -827,5 +567,16 @@ fn time_rate_bdf2() {
     assert!(
         (r - 2.0).abs() <= RATE_TOLERANCE,
         "c: rate {r:.3}, expected 2\n{table}"
+    );
+}
+
+/// Axisymmetric (r from 0.5 to 1.5, hoop strain and hoop stress, `2πr` weights), all fields
+/// quadratic (Quad8): the same expected rates as in plane strain (3, 3, 2, 3).
+#[test]
+fn space_rates_axisymmetric_all_quadratic() {
+    check_space_rates(
+        Orders { u: 2, c: 2, mu: 2 },
+        OMEGA,
+        GeometryMode::Axisymmetric,
     );
 }
