@@ -1,15 +1,17 @@
-//! Manufactured solutions for the full coupled system (u, c, μ) in plane strain: observed
-//! convergence rates in space (L2 errors of every field) and in time (backward Euler and BDF2).
-//! Method: Salari & Knupp, "Code verification by the method of manufactured solutions",
-//! SAND2000-1444 (2000); Roache, "Code verification by the method of manufactured solutions",
-//! J. Fluids Eng. 124 (2002) 4–10 (both from memory). Expected rates: `p + 1` in L2 for smooth
-//! solutions with degree-`p` Lagrange elements (Ciarlet, The Finite Element Method for Elliptic
-//! Problems, 1978, from memory); order 1 for backward Euler and 2 for BDF2 (Hairer & Wanner,
-//! Solving Ordinary Differential Equations II, section III.5 / VI, from memory; common practice).
+//! Manufactured solutions for the full coupled system (u, c, μ) in plane strain and
+//! axisymmetry: observed convergence rates in space (L2 errors of every field) and in time
+//! (backward Euler and BDF2). Method: Salari & Knupp, "Code verification by the method of
+//! manufactured solutions", SAND2000-1444 (2000); Roache, "Code verification by the method of
+//! manufactured solutions", J. Fluids Eng. 124 (2002) 4–10 (both from memory). Expected rates:
+//! `p + 1` in L2 for smooth solutions with degree-`p` Lagrange elements (Ciarlet, The Finite
+//! Element Method for Elliptic Problems, 1978, from memory), capped by the coupling of the mixed
+//! formulation as explained at `expected_rate`; order 1 for backward Euler and 2 for BDF2 (Hairer
+//! & Wanner, Solving Ordinary Differential Equations II, section III.5 / VI, from memory; common
+//! practice).
 //!
 //! Manufactured data. Each field is `f(x, t) = P(x) + τ(t) Q(x)` with `P`, `Q` quadratic
 //! polynomials plus separable sine products, whose derivatives are exact closed forms
-//! ([`Spatial::derivative`]). Adding to the model
+//! (`Spatial::derivative` in `coupled_mms/fields.rs`). Adding to the model
 //! * a body force `b = −div σ(ε(u*), c*)`,
 //! * a mass source `s = ∂c*/∂t + div J(c*, grad μ*)`,
 //! * a potential source `g = μ* − μ_local(ε(u*), c*)`
