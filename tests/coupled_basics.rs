@@ -156,6 +156,8 @@ fn coupled_tangent_matches_finite_differences() {
                     history: &history,
                 },
                 source: None,
+                body_force: None,
+                potential_source: None,
                 solution: xs,
             };
             k.cell_into(input, &mut k.build_scratch(), out).unwrap();
@@ -301,6 +303,8 @@ fn swapped_tangent_matches_finite_differences() {
                     history: &history,
                 },
                 source: None,
+                body_force: None,
+                potential_source: None,
                 solution: xs,
             },
             swap: RowSwap {

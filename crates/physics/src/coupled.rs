@@ -5,7 +5,12 @@
 //! * mass:      `R_c,a = ∫ N_a (ċ − s) dV − ∫ grad N_a · J dV`, `J = −M(c) grad μ`
 //! * potential: `R_μ,a = ∫ N_a (μ − μ_local(ε, c)) dV`
 //!
-//! with the rate `ċ ≈ a0 c + h` supplied by the time integrator. The point law (stress, local
+//! with the rate `ċ ≈ a0 c + h` supplied by the time integrator.
+//!
+//! For verification by manufactured solutions the kernel takes two optional data terms, both off
+//! (`None`) in every physical model: a body force `b` in the momentum equation (`R_u,a` gains
+//! `− ∫ N_a b dV`) and a potential source `g` in the potential equation (`R_μ,a = ∫ N_a (μ −
+//! μ_local − g) dV`). They depend on position only, so they leave the tangent unchanged. The point law (stress, local
 //! potential, flux and all their derivatives) comes from `dilata_material::coupled`; a
 //! concentration outside the law's range is returned as a recoverable error naming the cell.
 //! Boundary terms (tractions, inward species flux) are separate facet kernels.
@@ -31,7 +36,7 @@ use dilata_material::error::RangeError;
 use nalgebra::Vector3;
 
 use crate::cellcache::{stiffness_degree, CellValuesCache};
-use crate::elasticity::{node_b, strain_at};
+use crate::elasticity::{node_b, strain_at, VectorFn};
 use crate::poisson::ScalarFn;
 
 /// Handles of the three fields of the coupled problem.
@@ -127,6 +132,12 @@ pub struct CoupledKernel<'a> {
     pub rate: RateTerm<'a>,
     /// Volumetric source `s` in mol/(m³ s).
     pub source: Option<ScalarFn<'a>>,
+    /// Body force density `b` in N/m³ (momentum residual `− ∫ N_a b dV`). Manufactured-solution
+    /// term: `None` in physical models.
+    pub body_force: Option<VectorFn<'a>>,
+    /// Potential source `g` in J/mol (potential residual `∫ N_a (μ − μ_local − g) dV`).
+    /// Manufactured-solution term: `None` in physical models.
+    pub potential_source: Option<ScalarFn<'a>>,
     pub solution: &'a [f64],
 }
 
@@ -213,11 +224,12 @@ impl CellKernel for CoupledKernel<'_> {
                     source,
                 })?;
             if let Some(fe) = vector.as_deref_mut() {
+                let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
                 for a in 0..nu {
                     let ba = node_b(self.mode, gu[a], vu[a], r);
                     for i in 0..nc {
                         let v: f64 = (0..6).map(|k| ba[k][i] * p.stress[k]).sum();
-                        fe[ru.start + a * nc + i] += v * w;
+                        fe[ru.start + a * nc + i] += (v - vu[a] * body[i]) * w;
                     }
                 }
                 let src = self.source.map_or(0.0, |f| f(cv.points[q]));
@@ -225,8 +237,9 @@ impl CellKernel for CoupledKernel<'_> {
                     let gj = gc[a][0] * p.flux[0] + gc[a][1] * p.flux[1] + gc[a][2] * p.flux[2];
                     fe[rc.start + a] += (vc[a] * (c_dot - src) - gj) * w;
                 }
+                let g = self.potential_source.map_or(0.0, |f| f(cv.points[q]));
                 for a in 0..nmn {
-                    fe[rm.start + a] += vm[a] * (mu - p.mu_local) * w;
+                    fe[rm.start + a] += vm[a] * (mu - p.mu_local - g) * w;
                 }
             }
             if let Some(ke) = matrix.as_deref_mut() {

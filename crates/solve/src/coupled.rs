@@ -34,6 +34,9 @@ pub type BoundaryUpdate =
 /// A volumetric source density `s(x, t)` in mol/(m³ s).
 pub type BoxTimedScalarFn = Box<dyn Fn([f64; 3], f64) -> f64 + Sync + Send>;
 
+/// A vector field of position and time, `b(x, t)` (e.g. a body force density in N/m³).
+pub type BoxTimedVectorFn = Box<dyn Fn([f64; 3], f64) -> [f64; 3] + Sync + Send>;
+
 /// Why a coupled problem cannot be solved as set up (a bug of the input).
 #[derive(Clone, Debug, PartialEq, Eq, thiserror::Error)]
 pub enum CoupledSetupError {
@@ -86,6 +89,14 @@ pub struct CoupledProblem<'m> {
     pub loads: Vec<(Vec<Facet>, BoundaryLoad)>,
     /// Volumetric source `s(x, t)`, evaluated at the end time of the step.
     pub source: Option<BoxTimedScalarFn>,
+    /// Body force `b(x, t)` in N/m³ in the momentum equation (residual `− ∫ N_a b dV`),
+    /// evaluated at the end time of the step. For manufactured-solution verification only:
+    /// `None` (the default) in physical models. Does not change the tangent.
+    pub body_force: Option<BoxTimedVectorFn>,
+    /// Source `g(x, t)` in J/mol in the potential equation (`∫ w (μ − μ_local − g) dV`),
+    /// evaluated at the end time of the step. For manufactured-solution verification only:
+    /// `None` (the default) in physical models. Does not change the tangent.
+    pub potential_source: Option<BoxTimedScalarFn>,
     /// Called by `begin_step(t_new, ..)` before anything else, for every attempted step
     /// (including retried, cut steps), so that time tables are evaluated at `t_new`.
     pub boundary_update: Option<BoundaryUpdate>,
@@ -120,6 +131,8 @@ impl<'m> CoupledProblem<'m> {
             laws,
             loads: Vec::new(),
             source: None,
+            body_force: None,
+            potential_source: None,
             boundary_update: None,
             time: 0.0,
             a0: 0.0,
@@ -211,6 +224,10 @@ impl<'m> CoupledProblem<'m> {
         let t = self.time;
         let timed = self.source.as_ref();
         let source = move |p: [f64; 3]| timed.map_or(0.0, |f| f(p, t));
+        let timed_body = self.body_force.as_ref();
+        let body_force = move |p: [f64; 3]| timed_body.map_or([0.0; 3], |f| f(p, t));
+        let timed_g = self.potential_source.as_ref();
+        let potential_source = move |p: [f64; 3]| timed_g.map_or(0.0, |f| f(p, t));
         let kernel = CoupledKernel {
             dofs: &self.dofs,
             fields: self.fields,
@@ -221,6 +238,11 @@ impl<'m> CoupledProblem<'m> {
                 history: &self.history,
             },
             source: self.source.as_ref().map(|_| &source as _),
+            body_force: self.body_force.as_ref().map(|_| &body_force as _),
+            potential_source: self
+                .potential_source
+                .as_ref()
+                .map(|_| &potential_source as _),
             solution: x,
         };
         let swap = (self.n_swapped > 0).then_some(RowSwap {
