@@ -205,6 +205,8 @@ pub fn run(
     let mesh = &model.mesh;
     let n = dofs.n_dofs();
     let mut problem = CoupledProblem::new(mesh, dofs, fields, model.mode, model.laws.clone(), par);
+    // Factorising the coupled Jacobian costs far more than a residual (docs/performance.md).
+    problem.reuse_jacobian = true;
     if model.source != 0.0 {
         let s = model.source;
         problem.source = Some(Box::new(move |_, _| s));
@@ -407,6 +409,9 @@ pub fn run(
                         reason =
                             format!("{} reached {:e} (value {:e})", describe(rule), target, now);
                         stop_value = None;
+                        // Retakes end with a short step; the next stage starts from the step
+                        // size proposed before the crossing.
+                        integrator.state.dt_next = integrator.state.dt_next.max(saved.0.dt_next);
                     } else {
                         stop_value = Some(now);
                     }
@@ -419,6 +424,7 @@ pub fn run(
                 d.row.stage = plan.name.clone();
                 d.row.dt = report.dt;
                 d.row.newton_iterations = report.newton.iterations;
+                d.row.factorizations = report.newton.factorizations;
                 d.row.rejected = report.rejections.len();
                 d.row.inflow = new_inflow;
                 d.row.balance_error = d.row.amount - amount0 - new_inflow;

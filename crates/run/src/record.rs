@@ -14,12 +14,13 @@ use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
 use dilata_mesh::Mesh;
 
 /// Columns of `history.csv`, in order (documented in docs/scenario.md).
-pub const HISTORY_COLUMNS: [&str; 18] = [
+pub const HISTORY_COLUMNS: [&str; 19] = [
     "time_s",
     "step",
     "stage",
     "dt_s",
     "newton_iterations",
+    "factorizations",
     "rejected_attempts",
     "amount_mol",
     "inflow_mol",
@@ -43,6 +44,7 @@ pub struct HistoryRow {
     pub stage: String,
     pub dt: f64,
     pub newton_iterations: usize,
+    pub factorizations: usize,
     pub rejected: usize,
     pub amount: f64,
     pub inflow: f64,
@@ -91,12 +93,13 @@ impl History {
     pub fn append(&mut self, r: &HistoryRow) -> Result<(), IoError> {
         writeln!(
             self.file,
-            "{:.17e},{},{},{:.17e},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.3}",
+            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.3}",
             r.time,
             r.step,
             r.stage,
             r.dt,
             r.newton_iterations,
+            r.factorizations,
             r.rejected,
             r.amount,
             r.inflow,

@@ -100,6 +100,9 @@ pub struct CoupledProblem<'m> {
     /// Called by `begin_step(t_new, ..)` before anything else, for every attempted step
     /// (including retried, cut steps), so that time tables are evaluated at `t_new`.
     pub boundary_update: Option<BoundaryUpdate>,
+    /// Let Newton keep a factorised Jacobian while the residual falls fast (chord steps; see
+    /// `DiscreteSystem::reuse_jacobian`). Default false.
+    pub reuse_jacobian: bool,
     time: f64,
     a0: f64,
     history: Vec<f64>,
@@ -134,6 +137,7 @@ impl<'m> CoupledProblem<'m> {
             body_force: None,
             potential_source: None,
             boundary_update: None,
+            reuse_jacobian: false,
             time: 0.0,
             a0: 0.0,
             history: vec![0.0; n],
@@ -411,6 +415,10 @@ impl DiscreteSystem for CoupledProblem<'_> {
         let size = (0..3).map(|d| (hi[d] - lo[d]).max(0.0)).fold(0.0, f64::max);
         let rt = dilata_material::chemical::GAS_CONSTANT * self.laws.max_temperature();
         vec![size, 0.0, rt]
+    }
+
+    fn reuse_jacobian(&self) -> bool {
+        self.reuse_jacobian
     }
 
     fn blocks(&self) -> Vec<std::ops::Range<usize>> {

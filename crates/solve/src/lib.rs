@@ -6,7 +6,10 @@
 
 pub mod coupled;
 
-pub use coupled::{BoundaryUpdate, BoxTimedScalarFn, CoupledProblem, CoupledSetupError, MassRates};
+pub use coupled::{
+    BoundaryUpdate, BoxTimedScalarFn, BoxTimedVectorFn, CoupledProblem, CoupledSetupError,
+    MassRates,
+};
 pub mod newton;
 
 pub use newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};

@@ -35,6 +35,13 @@ pub trait DiscreteSystem {
     fn block_scales(&self) -> Vec<f64> {
         vec![0.0; self.blocks().len()]
     }
+    /// Whether Newton may keep the factorised Jacobian of an earlier iteration of the same solve
+    /// (chord steps) while the residual still falls fast, refactoring only when it does not.
+    /// Worth it when factorising costs much more than a residual. Default: refactor every
+    /// iteration (plain Newton).
+    fn reuse_jacobian(&self) -> bool {
+        false
+    }
 }
 
 /// Newton parameters. Converged when, for every block of unknowns (see
@@ -72,6 +79,9 @@ impl Default for NewtonParams {
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct NewtonInfo {
     pub iterations: usize,
+    /// Jacobian factorisations performed (equal to `iterations` unless the system allows
+    /// chord steps).
+    pub factorizations: usize,
     /// Residual norm (max norm) before each iteration and at the end.
     pub residual_norms: Vec<f64>,
     pub backtracks: usize,
@@ -133,8 +143,17 @@ pub fn newton<S: DiscreteSystem>(
     if rn <= params.abs_tol {
         return Ok(info);
     }
+    // Chord steps (see `DiscreteSystem::reuse_jacobian`): the factorisation is kept while each
+    // iteration reduces the residual at least by `CHORD_RATIO` with a full step.
+    const CHORD_RATIO: f64 = 0.25;
+    let reuse = system.reuse_jacobian();
+    let mut factored_current = false;
     for it in 1..=params.max_iterations {
-        solver.factor(&jac)?;
+        if !factored_current {
+            solver.factor(&jac)?;
+            info.factorizations += 1;
+            factored_current = true;
+        }
         for (d, r) in dx.iter_mut().zip(&res) {
             *d = -r;
         }
@@ -186,6 +205,7 @@ pub fn newton<S: DiscreteSystem>(
         // The loop either accepted a finite residual or returned on the last trial.
         let tn = accepted.expect("accepted or returned above");
         let full_step = alpha == 1.0;
+        let fast = full_step && tn <= CHORD_RATIO * rn;
         x.copy_from_slice(&trial);
         rn = tn;
         info.iterations = it;
@@ -200,9 +220,14 @@ pub fn newton<S: DiscreteSystem>(
             return Ok(info);
         }
         if it < params.max_iterations {
+            if reuse && fast {
+                // `res` already holds the residual at the accepted point (line search).
+                continue;
+            }
             system
                 .assemble_into(x, &mut jac, &mut res)
                 .map_err(NewtonError::System)?;
+            factored_current = false;
         }
     }
     Err(NewtonError::NotConverged {
