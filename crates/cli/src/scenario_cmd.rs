@@ -7,7 +7,8 @@ use std::time::Instant;
 
 use anyhow::Context;
 use dilata_run::{
-    build_model, check_model, load_model, material_table, Model, Progress, RunOptions, RunSummary,
+    build_model, check_model, describe_stop, load_model, material_table, stop_target, Model,
+    Progress, RunOptions, RunSummary,
 };
 
 use crate::json::Json;
@@ -46,7 +47,11 @@ fn describe(model: &Model) {
     }
     for stage in &model.stages {
         let stop = match &stage.stop {
-            Some(rule) => format!(", or earlier when {rule:?}"),
+            Some(rule) => format!(
+                ", or earlier when the {} reaches {:e}",
+                describe_stop(rule),
+                stop_target(rule)
+            ),
             None => String::new(),
         };
         println!(

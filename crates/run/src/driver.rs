@@ -406,8 +406,12 @@ pub fn run(
                             tries += 1;
                             continue;
                         }
-                        reason =
-                            format!("{} reached {:e} (value {:e})", describe(rule), target, now);
+                        reason = format!(
+                            "{} reached {:e} (value {:e})",
+                            describe_stop(rule),
+                            target,
+                            now
+                        );
                         stop_value = None;
                         // Retakes end with a short step; the next stage starts from the step
                         // size proposed before the crossing.
@@ -623,7 +627,8 @@ fn integrate_rate(
     (rate - a1 * i_n - a2 * i_prev) / a0
 }
 
-fn stop_target(rule: &StopRule) -> f64 {
+/// The value a stop rule waits for.
+pub fn stop_target(rule: &StopRule) -> f64 {
     match rule {
         StopRule::MeanConcentration { value }
         | StopRule::BoundaryConcentration { value, .. }
@@ -631,7 +636,8 @@ fn stop_target(rule: &StopRule) -> f64 {
     }
 }
 
-fn describe(rule: &StopRule) -> String {
+/// The quantity a stop rule watches, in words ("mean concentration on 'outer'").
+pub fn describe_stop(rule: &StopRule) -> String {
     match rule {
         StopRule::MeanConcentration { .. } => "mean concentration".into(),
         StopRule::BoundaryConcentration { on, .. } => format!("mean concentration on '{on}'"),

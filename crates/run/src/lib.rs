@@ -17,7 +17,10 @@ mod record;
 
 use std::path::PathBuf;
 
-pub use driver::{build_dofs, check_model, run, Progress, RunOptions, RunSummary, StageOutcome};
+pub use driver::{
+    build_dofs, check_model, describe_stop, run, stop_target, Progress, RunOptions, RunSummary,
+    StageOutcome,
+};
 pub use formula::Formula;
 pub use model::{build_model, load_model, material_table, Model, FARADAY};
 pub use program::{value_at, Condition, ConditionKind, StagePlan, Target};

@@ -765,7 +765,7 @@ pub(crate) fn check_stop(
     Ok(())
 }
 
-/// Per-material lookup used by the summary: name of the material of each law index.
+/// Number of cells of each material, by material name (for descriptions of a model).
 pub fn material_table(model: &Model) -> BTreeMap<String, usize> {
     let mut counts = BTreeMap::new();
     for &i in model.laws.law_of_cell() {
