@@ -163,9 +163,11 @@ pub fn newton<S: DiscreteSystem>(
         }
         // A correction below the step tolerance in every block: the iterate is converged to
         // round-off, where a residual comparison is noise. Take the step and stop.
-        let negligible = blocks
-            .iter()
-            .all(|b| max_norm(&dx[b.clone()]) <= params.step_tol * max_norm(&x[b.clone()]));
+        // The floor `scale` matters for a block whose solution is zero (a clamped
+        // displacement): there round-off corrections never fall below a fraction of `|x|`.
+        let negligible = blocks.iter().zip(&scales).all(|(b, &s)| {
+            max_norm(&dx[b.clone()]) <= params.step_tol * max_norm(&x[b.clone()]).max(s)
+        });
         if negligible {
             for i in 0..n {
                 x[i] += dx[i];
