@@ -3,7 +3,6 @@
 //! Argument parsing, progress display and error presentation for the `dilata` command. No
 //! numerics here: commands call the library crates and print what they return.
 
-mod json;
 mod mesh_cmd;
 mod scenario_cmd;
 

@@ -6,7 +6,7 @@ use anyhow::Context;
 use dilata_fem::quality::build_quality_report;
 use dilata_mesh::Mesh;
 
-use crate::json::Json;
+use dilata_io::json::Json;
 
 pub fn run(file: &Path, vtu: Option<&Path>, json: bool) -> anyhow::Result<()> {
     let mesh = dilata_mesh::msh::read_msh(file)?;

@@ -11,7 +11,7 @@ use dilata_run::{
     Progress, RunOptions, RunSummary,
 };
 
-use crate::json::Json;
+use dilata_io::json::Json;
 
 /// The built-in demonstration scenario (also `examples/charging_particle/scenario.toml`).
 pub const DEMO_SCENARIO: &str = include_str!("../../../examples/charging_particle/scenario.toml");
@@ -82,7 +82,7 @@ fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Resul
     if threads == Some(0) {
         anyhow::bail!("--threads must be at least 1");
     }
-    check_model(model)?;
+    // `run` checks everything `check_model` does before it writes anything.
     describe(model);
     let mut bar = ProgressLine::new();
     let summary = dilata_run::run(

@@ -31,6 +31,7 @@
 
 mod atomic;
 mod error;
+pub mod json;
 mod pvd;
 mod vtu;
 

@@ -6,6 +6,7 @@ use std::time::Instant;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Constraints, FieldSpec, GeometryMode, Parallelism};
+use dilata_io::json::Json;
 use dilata_io::scenario::{LinearSolverName, RigidModes, SchemeName, StopRule};
 use dilata_io::{write_atomic, PvdWriter};
 use dilata_linalg::{build_solver_with, LinearSolver, Ordering, SolverConfig, SolverKind};
@@ -16,15 +17,14 @@ use dilata_physics::coupled_post::{
 };
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::supports::{pin_rigid_modes, rigid_modes_left, RigidBody};
-use dilata_solve::time::{AdaptiveParams, Integrator, IntegratorParams, Scheme, StepSizing};
+use dilata_solve::time::{
+    AdaptiveParams, Integrator, IntegratorParams, RateRule, Scheme, StepSizing,
+};
 use dilata_solve::{newton, NewtonParams, TransientSystem};
 
 use crate::model::Model;
 use crate::program::{build_stage_setup, ConditionKind, StagePlan};
-use crate::record::{
-    json_number, json_string, nodal_field, write_json, write_snapshot, History, HistoryRow, Probe,
-    RunLog, Snapshot,
-};
+use crate::record::{nodal_field, write_snapshot, History, HistoryRow, Probe, RunLog, Snapshot};
 use crate::RunError;
 
 /// Newton steps below this fraction of a field's magnitude (or its scale: body size, RT) end
@@ -318,7 +318,7 @@ pub fn run(
     let mut row0 = d0.row.clone();
     row0.stage = model.stages[0].name.clone();
     history.append(&row0)?;
-    snapshot(&problem, &integrator.state.x.clone(), &d0, 0.0, &mut pvd)?;
+    snapshot(&problem, &integrator.state.x, &d0, 0.0, &mut pvd)?;
     let mut max_h = (row0.peak_hydrostatic, 0.0);
     let mut max_p = (row0.peak_principal, 0.0);
     let mut last_row = row0;
@@ -338,7 +338,6 @@ pub fn run(
             .map_err(|e| RunError::Numerical(format!("stage '{}': {e}", plan.name)))?;
         // Restart the multistep history at a stage change (the loads may jump).
         integrator.state.past.clear();
-        let mut since_restart = 0usize;
         let t_end = t_stage + plan.duration;
         let mut reason = "duration".to_string();
         let mut stop_value = match &plan.stop {
@@ -354,15 +353,15 @@ pub fn run(
         'steps: while integrator.state.t < t_end * (1.0 - 1e-14) {
             let t_out = next_output(integrator.state.t);
             let mut t_stop = t_end.min(t_out);
-            let saved = (integrator.state.clone(), inflow, since_restart);
+            let saved = (integrator.state.clone(), inflow);
             let mut tries = 0;
             loop {
                 let report = match integrator.step(&mut problem, solver.as_mut(), t_stop) {
                     Ok(r) => r,
                     Err(e) => {
-                        let d = post(&problem, &integrator.state.x.clone())?;
-                        let x = integrator.state.x.clone();
-                        snapshot(&problem, &x, &d, integrator.state.t, &mut pvd)?;
+                        let x = &integrator.state.x;
+                        let d = post(&problem, x)?;
+                        snapshot(&problem, x, &d, integrator.state.t, &mut pvd)?;
                         let message = explain_failure(model, &e.to_string());
                         log.note(&format!("stage '{}' stopped: {message}", plan.name))?;
                         return Err(RunError::Stalled {
@@ -380,16 +379,12 @@ pub fn run(
                         plan.name, saved.0.t
                     ))?;
                 }
-                let order = match (time.scheme, since_restart) {
-                    (SchemeName::Bdf2, k) if k >= 1 => 2,
-                    _ => 1,
-                };
                 let x = integrator.state.x.clone();
                 let rates = problem
                     .mass_rates(&x)
                     .map_err(|e| RunError::Numerical(format!("mass balance: {e}")))?;
                 let r = rates.supplied + rates.reaction;
-                let new_inflow = integrate_rate(&integrator, order, inflow, r, report.dt);
+                let new_inflow = integrate_rate(&report.rate, inflow, r);
                 let mut d = post(&problem, &x)?;
                 // Stop event: locate the crossing in time by retaking the step.
                 if let (Some(rule), Some(before)) = (&plan.stop, stop_value) {
@@ -401,7 +396,7 @@ pub fn run(
                         if !close && tries < 6 && frac < 0.999 {
                             let t0 = saved.0.t;
                             let t_cross = t0 + frac.max(1e-3) * (report.t - t0);
-                            (integrator.state, inflow, since_restart) = saved.clone();
+                            (integrator.state, inflow) = saved.clone();
                             t_stop = t_cross;
                             tries += 1;
                             continue;
@@ -421,7 +416,6 @@ pub fn run(
                     }
                 }
                 steps += 1;
-                since_restart += 1;
                 inflow = (inflow.1, new_inflow);
                 d.row.time = report.t;
                 d.row.step = steps;
@@ -490,7 +484,7 @@ pub fn run(
         n_dofs: n,
         snapshots,
         last_snapshot,
-        final_solution: integrator.state.x.clone(),
+        final_solution: std::mem::take(&mut integrator.state.x),
     };
     write_summary(&out.join("summary.json"), model, &summary)?;
     Ok(summary)
@@ -604,27 +598,11 @@ fn derive(model: &Model, problem: &CoupledProblem<'_>, x: &[f64]) -> Result<Deri
 }
 
 /// Next value of the integrated inflow `I` with the rate rule of the step just taken
-/// (backward Euler, or variable-step BDF2 with the previous step), so that `amount − amount₀ −
-/// I` is the accumulated discrete mass-balance error.
-fn integrate_rate(
-    integrator: &Integrator,
-    order: usize,
-    inflow: (f64, f64),
-    rate: f64,
-    dt: f64,
-) -> f64 {
+/// (`a0 I_{n+1} + a1 I_n + a2 I_{n−1} = rate`), so that `amount − amount₀ − I` is the
+/// accumulated discrete mass-balance error.
+fn integrate_rate(rule: &RateRule, inflow: (f64, f64), rate: f64) -> f64 {
     let (i_prev, i_n) = inflow;
-    if order == 1 {
-        return i_n + dt * rate;
-    }
-    // state.past[0] is the step's start, past[1] the one before.
-    let t_n = integrator.state.past[0].0;
-    let t_prev = integrator.state.past[1].0;
-    let w = dt / (t_n - t_prev);
-    let a0 = (1.0 + 2.0 * w) / ((1.0 + w) * dt);
-    let a1 = -(1.0 + w) / dt;
-    let a2 = w * w / ((1.0 + w) * dt);
-    (rate - a1 * i_n - a2 * i_prev) / a0
+    (rate - rule.a1 * i_n - rule.a2 * i_prev) / rule.a0
 }
 
 /// The value a stop rule waits for.
@@ -713,60 +691,59 @@ fn explain_failure(model: &Model, message: &str) -> String {
 }
 
 fn write_summary(path: &Path, model: &Model, s: &RunSummary) -> Result<(), RunError> {
-    let stages: Vec<String> = s
+    let text = |v: &str| Json::Str(v.to_string());
+    let count = |n: usize| Json::Int(n as i64);
+    let stages = s
         .stages
         .iter()
         .map(|o| {
-            format!(
-                "{{\"name\": {}, \"start_s\": {}, \"end_s\": {}, \"ended_by\": {}}}",
-                json_string(&o.name),
-                json_number(o.start),
-                json_number(o.end),
-                json_string(&o.reason)
-            )
+            Json::Obj(vec![
+                ("name".into(), text(&o.name)),
+                ("start_s".into(), Json::Num(o.start)),
+                ("end_s".into(), Json::Num(o.end)),
+                ("ended_by".into(), text(&o.reason)),
+            ])
         })
         .collect();
     let r = &s.final_row;
-    write_json(
-        path,
-        &[
-            ("program", json_string("dilata")),
-            ("version", json_string(env!("CARGO_PKG_VERSION"))),
-            ("title", json_string(&model.scenario.title)),
-            ("scenario", json_string(&model.file)),
-            ("dofs", s.n_dofs.to_string()),
-            ("steps", s.steps.to_string()),
-            ("rejected_attempts", s.rejected.to_string()),
-            ("snapshots", s.snapshots.to_string()),
-            ("wall_s", json_number(s.wall_seconds)),
-            ("final_time_s", json_number(s.final_time)),
-            ("final_amount_mol", json_number(r.amount)),
-            ("final_c_mean", json_number(r.c_mean)),
-            ("final_c_min", json_number(r.c_min)),
-            ("final_c_max", json_number(r.c_max)),
-            ("final_balance_error_mol", json_number(r.balance_error)),
-            (
-                "max_hydrostatic_stress_pa",
-                json_number(s.max_hydrostatic.0),
+    let entries: Vec<(&str, Json)> = vec![
+        ("program", text("dilata")),
+        ("version", text(env!("CARGO_PKG_VERSION"))),
+        ("title", text(&model.scenario.title)),
+        ("scenario", text(&model.file)),
+        ("dofs", count(s.n_dofs)),
+        ("steps", count(s.steps)),
+        ("rejected_attempts", count(s.rejected)),
+        ("snapshots", count(s.snapshots)),
+        ("wall_s", Json::Num(s.wall_seconds)),
+        ("final_time_s", Json::Num(s.final_time)),
+        ("final_amount_mol", Json::Num(r.amount)),
+        ("final_c_mean", Json::Num(r.c_mean)),
+        ("final_c_min", Json::Num(r.c_min)),
+        ("final_c_max", Json::Num(r.c_max)),
+        ("final_balance_error_mol", Json::Num(r.balance_error)),
+        ("max_hydrostatic_stress_pa", Json::Num(s.max_hydrostatic.0)),
+        (
+            "max_hydrostatic_stress_time_s",
+            Json::Num(s.max_hydrostatic.1),
+        ),
+        ("max_principal_stress_pa", Json::Num(s.max_principal.0)),
+        ("max_principal_stress_time_s", Json::Num(s.max_principal.1)),
+        ("stages", Json::Arr(stages)),
+        (
+            "caution",
+            text(
+                "Simulation results inform design; they do not certify it. Validate against \
+                 experiments and applicable codes and standards.",
             ),
-            (
-                "max_hydrostatic_stress_time_s",
-                json_number(s.max_hydrostatic.1),
-            ),
-            ("max_principal_stress_pa", json_number(s.max_principal.0)),
-            (
-                "max_principal_stress_time_s",
-                json_number(s.max_principal.1),
-            ),
-            ("stages", format!("[{}]", stages.join(", "))),
-            (
-                "caution",
-                json_string(
-                    "Simulation results inform design; they do not certify it. Validate against \
-                     experiments and applicable codes and standards.",
-                ),
-            ),
-        ],
-    )?;
+        ),
+    ];
+    let doc = Json::Obj(
+        entries
+            .into_iter()
+            .map(|(k, v)| (k.to_string(), v))
+            .collect(),
+    );
+    write_atomic(path, doc.render().as_bytes())?;
     Ok(())
 }

@@ -9,7 +9,7 @@ use dilata_fem::dofs::DofMap;
 use dilata_fem::shape::eval_into;
 use dilata_fem::values::space_kind;
 use dilata_fem::FieldHandle;
-use dilata_io::{write_atomic, write_vtu, FieldData, FieldKind, IoError, PvdWriter};
+use dilata_io::{write_vtu, FieldData, FieldKind, IoError, PvdWriter};
 use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
 use dilata_mesh::Mesh;
 
@@ -254,40 +254,4 @@ pub fn write_snapshot(
         })
         .collect();
     Ok((name, probes))
-}
-
-/// Write a small JSON document atomically (keys and values already formatted).
-pub fn write_json(path: &Path, entries: &[(&str, String)]) -> Result<(), IoError> {
-    let mut s = String::from("{\n");
-    for (i, (k, v)) in entries.iter().enumerate() {
-        s.push_str(&format!("  \"{k}\": {v}"));
-        s.push_str(if i + 1 < entries.len() { ",\n" } else { "\n" });
-    }
-    s.push_str("}\n");
-    write_atomic(path, s.as_bytes())
-}
-
-/// A JSON string literal.
-pub fn json_string(s: &str) -> String {
-    let mut out = String::from("\"");
-    for ch in s.chars() {
-        match ch {
-            '"' => out.push_str("\\\""),
-            '\\' => out.push_str("\\\\"),
-            '\n' => out.push_str("\\n"),
-            c if (c as u32) < 0x20 => out.push_str(&format!("\\u{:04x}", c as u32)),
-            c => out.push(c),
-        }
-    }
-    out.push('"');
-    out
-}
-
-/// A JSON number (non-finite values become null).
-pub fn json_number(v: f64) -> String {
-    if v.is_finite() {
-        format!("{v:e}")
-    } else {
-        "null".to_string()
-    }
 }

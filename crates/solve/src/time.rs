@@ -108,11 +108,44 @@ pub struct IntegratorState {
     pub n_rejected: usize,
 }
 
+/// The rate rule of one step: `ẋ_{n+1} ≈ a0 x_{n+1} + a1 x_n + a2 x_{n−1}` (`a2 = 0` for
+/// backward Euler), with the coefficients of the module documentation.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct RateRule {
+    pub a0: f64,
+    pub a1: f64,
+    pub a2: f64,
+}
+
+impl RateRule {
+    /// Backward Euler for a step `dt` (no previous step), or variable-step BDF2 after a step
+    /// `dt_prev`.
+    pub fn for_step(dt: f64, dt_prev: Option<f64>) -> RateRule {
+        match dt_prev {
+            None => RateRule {
+                a0: 1.0 / dt,
+                a1: -1.0 / dt,
+                a2: 0.0,
+            },
+            Some(prev) => {
+                let w = dt / prev;
+                RateRule {
+                    a0: (1.0 + 2.0 * w) / ((1.0 + w) * dt),
+                    a1: -(1.0 + w) / dt,
+                    a2: w * w / ((1.0 + w) * dt),
+                }
+            }
+        }
+    }
+}
+
 /// What one accepted step did.
 #[derive(Clone, Debug, PartialEq)]
 pub struct StepReport {
     pub t: f64,
     pub dt: f64,
+    /// The rate rule the step used.
+    pub rate: RateRule,
     pub newton: NewtonInfo,
     /// Weighted local error norm (None when not estimated).
     pub error: Option<f64>,
@@ -193,8 +226,8 @@ impl Integrator {
             }
             let t_new = self.state.t + dt;
             let order = self.effective_order();
-            let a0 = self.rate_coefficients_into(dt, order, &mut history);
-            system.begin_step(t_new, a0, &history);
+            let rule = self.rate_coefficients_into(dt, order, &mut history);
+            system.begin_step(t_new, rule.a0, &history);
             let mut x = self.predict(dt, order);
             let attempt = newton(system, solver, &mut x, &self.params.newton);
             let info = match attempt {
@@ -242,6 +275,7 @@ impl Integrator {
             return Ok(StepReport {
                 t: t_new,
                 dt,
+                rate: rule,
                 newton: info,
                 error,
                 rejections,
@@ -259,24 +293,20 @@ impl Integrator {
     }
 
     /// Fill `history` with `h` and return `a0` so that `ẋ ≈ a0 x + h`.
-    fn rate_coefficients_into(&self, dt: f64, order: usize, history: &mut [f64]) -> f64 {
+    fn rate_coefficients_into(&self, dt: f64, order: usize, history: &mut [f64]) -> RateRule {
         let x_n = &self.state.x;
         if order == 1 {
             for (h, &xn) in history.iter_mut().zip(x_n) {
                 *h = -xn / dt;
             }
-            return 1.0 / dt;
+            return RateRule::for_step(dt, None);
         }
         let (t_prev, x_prev) = &self.state.past[0];
-        let dt_prev = self.state.t - t_prev;
-        let w = dt / dt_prev;
-        let a0 = (1.0 + 2.0 * w) / ((1.0 + w) * dt);
-        let a1 = -(1.0 + w) / dt;
-        let a2 = w * w / ((1.0 + w) * dt);
+        let rule = RateRule::for_step(dt, Some(self.state.t - t_prev));
         for i in 0..history.len() {
-            history[i] = a1 * x_n[i] + a2 * x_prev[i];
+            history[i] = rule.a1 * x_n[i] + rule.a2 * x_prev[i];
         }
-        a0
+        rule
     }
 
     /// Polynomial extrapolation of order `order` through the last solutions (the current one if

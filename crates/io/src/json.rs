@@ -1,6 +1,7 @@
-//! Minimal JSON text building for machine-readable summaries (objects of numbers and strings).
+//! Minimal JSON text building for machine-readable summaries (objects of numbers and strings):
+//! the command line's `--json` output, expectation files and a run's `summary.json`.
 
-/// A JSON value as written by the command line.
+/// A JSON value.
 pub enum Json {
     Num(f64),
     Int(i64),
