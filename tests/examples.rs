@@ -83,6 +83,14 @@ fn charging_particle_ends_its_charge_at_the_faraday_time() {
     assert!(balance < 1e-10, "mass balance error {balance:e}");
     // The particle was in tension at the centre during the charge (the surface swells first).
     assert!(summary.max_principal.0 > 0.0);
+    // The default solver handled every step itself: no solve needed the LU fallback.
+    let log = std::fs::read_to_string(dir.path().join("run.log")).unwrap();
+    let line = log
+        .lines()
+        .find(|l| l.starts_with("linear solver gmres/symmetric-ldlt"))
+        .unwrap_or_else(|| panic!("no solver line in run.log:\n{log}"));
+    println!("{line}");
+    assert!(line.ends_with(" 0 solves by the LU fallback"), "{line}");
 }
 
 /// Bilayer strip: once the species is uniform, the upper layer carries the swelling strain

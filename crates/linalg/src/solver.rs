@@ -50,4 +50,9 @@ pub trait LinearSolver: Send {
     }
     /// A short human-readable name ("faer-cholesky/metis").
     fn name(&self) -> String;
+    /// One line on what the solver did so far (factorisations, iterations, fallbacks), for run
+    /// logs; `None` where there is nothing beyond the name to say (the default).
+    fn activity(&self) -> Option<String> {
+        None
+    }
 }

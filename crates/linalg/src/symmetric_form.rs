@@ -527,4 +527,12 @@ impl LinearSolver for SymmetricFormSolver {
     fn name(&self) -> String {
         format!("gmres/symmetric-ldlt/{}", self.params.ordering.name())
     }
+
+    fn activity(&self) -> Option<String> {
+        let s = self.stats;
+        Some(format!(
+            "{} matrices, {} symmetric factorisations, {} solves with {} GMRES iterations, {} solves by the LU fallback",
+            s.factor_calls, s.symmetric_factorizations, s.solves, s.gmres_iterations, s.lu_solves
+        ))
+    }
 }

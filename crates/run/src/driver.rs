@@ -205,8 +205,11 @@ pub fn run(
     let mesh = &model.mesh;
     let n = dofs.n_dofs();
     let mut problem = CoupledProblem::new(mesh, dofs, fields, model.mode, model.laws.clone(), par);
-    // Factorising the coupled Jacobian costs far more than a residual (docs/performance.md).
-    problem.reuse_jacobian = true;
+    // With the LU, factorising the coupled Jacobian costs far more than a residual, so Newton
+    // keeps a factorisation while it converges fast (chord steps). The symmetric-form solver
+    // keeps its own factorisation across Newton iterations and solves with the current
+    // Jacobian, so Newton stays quadratic there (docs/performance.md).
+    problem.reuse_jacobian = model.scenario.solver.linear == LinearSolverName::Direct;
     if model.source != 0.0 {
         let s = model.source;
         problem.source = Some(Box::new(move |_, _| s));
@@ -471,6 +474,9 @@ pub fn run(
             reason,
         });
         t_stage = integrator.state.t;
+    }
+    if let Some(activity) = solver.activity() {
+        log.note(&format!("linear solver {}: {activity}", solver.name()))?;
     }
     let summary = RunSummary {
         steps,
