@@ -31,7 +31,7 @@ pub fn draw(dir: &Path, out: Option<&Path>) -> anyhow::Result<Vec<std::path::Pat
         out: out.map(Path::to_path_buf),
         ..PlotOptions::default()
     };
-    Ok(dilata_plot::plot_table_into(
+    Ok(dilata_plot::write_figures(
         &table,
         options.out.as_deref().unwrap_or(dir),
         &options,

@@ -116,11 +116,11 @@ fn register_font() {
 pub fn plot_run_dir(dir: &Path, options: &PlotOptions) -> Result<Vec<PathBuf>, PlotError> {
     let table = HistoryTable::read(&dir.join(HISTORY_FILE))?;
     let out = options.out.as_deref().unwrap_or(dir);
-    plot_table_into(&table, out, options)
+    write_figures(&table, out, options)
 }
 
 /// Write the figures of `table` into the directory `out` (which must exist).
-pub fn plot_table_into(
+pub fn write_figures(
     table: &HistoryTable,
     out: &Path,
     options: &PlotOptions,
