@@ -234,3 +234,66 @@ fn unreadable_scenario_file_is_reported() {
     assert!(matches!(e, RunError::Read { .. }), "{e}");
     assert!(e.to_string().contains("/no/such/scenario.toml"), "{e}");
 }
+
+#[test]
+fn a_generated_body_of_absurd_size_is_refused_before_meshing() {
+    let e = error_of(&with("cells = [6, 2]", "cells = [200000, 60000]"));
+    assert!(e.starts_with("case.toml:4:9:"), "{e}");
+    assert!(
+        e.contains("a generated body of 12000000000 cells") && e.contains("at most 10000000"),
+        "{e}"
+    );
+}
+
+/// The cell counts behind the size limit agree with what the generators make.
+#[test]
+fn generated_cell_counts_match_the_generators() {
+    let shapes = [
+        (
+            "plane_strain",
+            r#"{ kind = "rectangle", size = [1.0, 1.0], cells = [3, 2], element = "tri3" }"#,
+        ),
+        (
+            "plane_strain",
+            r#"{ kind = "quarter_disc", radius = 1.0, cells = 3, element = "quad4" }"#,
+        ),
+        (
+            "plane_strain",
+            r#"{ kind = "disc", radius = 1.0, cells = 2, element = "quad4" }"#,
+        ),
+        (
+            "plane_strain",
+            r#"{ kind = "annulus_sector", inner_radius = 1.0, outer_radius = 2.0, angle_degrees = 90.0, cells = [3, 4], element = "quad4" }"#,
+        ),
+        (
+            "plane_strain",
+            r#"{ kind = "notched_plate", width = 2.0, height = 2.0, radius = 0.5, cells = [3, 2], element = "quad4" }"#,
+        ),
+        (
+            "three_d",
+            r#"{ kind = "box", size = [1.0, 1.0, 1.0], cells = [2, 2, 1], element = "tet4" }"#,
+        ),
+        (
+            "three_d",
+            r#"{ kind = "ball_octant", radius = 1.0, cells = 2, element = "hex8" }"#,
+        ),
+        (
+            "three_d",
+            r#"{ kind = "shell_octant", inner_radius = 1.0, outer_radius = 2.0, cells = [2, 3], element = "hex8" }"#,
+        ),
+    ];
+    for (geometry, shape) in shapes {
+        let text = format!(
+            "[body]\ngeometry = \"{geometry}\"\nshape = {shape}\n\
+             [[material]]\nname = \"m\"\nyoung_modulus = 1e9\npoisson_ratio = 0.3\n\
+             partial_molar_volume = 1e-6\nreference_concentration = 1.0\ndiffusivity = 1e-12\n\
+             [initial]\nconcentration = 1.0\n[[stage]]\nname = \"s\"\nduration = 1.0\n"
+        );
+        let model = build_model(text.clone(), "count.toml", Path::new("."))
+            .unwrap_or_else(|e| panic!("{shape}: {e}"));
+        let expected = dilata_io::scenario::generated_cells(
+            model.scenario.body.shape.as_ref().unwrap().get_ref(),
+        );
+        assert_eq!(model.mesh.n_cells() as u128, expected, "{shape}");
+    }
+}

@@ -4,6 +4,7 @@
 //! numerics here: commands call the library crates and print what they return.
 
 mod mesh_cmd;
+mod plot_cmd;
 mod scenario_cmd;
 
 use std::path::PathBuf;
@@ -49,6 +50,9 @@ enum Command {
         /// Worker threads for assembly and factorisation (default: all cores).
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
+        /// Do not draw the history figures at the end (see `dilata plot`).
+        #[arg(long)]
+        no_plot: bool,
     },
     /// Run the built-in demonstration scenario: a spherical storage particle charged at
     /// constant current to half capacity, then resting (examples/charging_particle).
@@ -59,6 +63,18 @@ enum Command {
         /// Worker threads for assembly and factorisation (default: all cores).
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
+        /// Do not draw the history figures at the end (see `dilata plot`).
+        #[arg(long)]
+        no_plot: bool,
+    },
+    /// Draw the history of a run (DIR/history.csv) as PNG and SVG figures: concentration, peak
+    /// stresses, energies and step size against time, stage changes marked.
+    Plot {
+        /// Results directory of a run.
+        dir: PathBuf,
+        /// Directory for the figures (default: DIR).
+        #[arg(long, value_name = "OUT")]
+        out: Option<PathBuf>,
     },
 }
 
@@ -69,14 +85,32 @@ pub fn main() -> ExitCode {
     let result = match cli.command {
         Command::Mesh { file, vtu, json } => mesh_cmd::run(&file, vtu.as_deref(), json),
         Command::Check { file } => scenario_cmd::check(&file),
-        Command::Run { file, out, threads } => scenario_cmd::run(&file, out.as_deref(), threads),
-        Command::Demo { out, threads } => scenario_cmd::demo(&out, threads),
+        Command::Run {
+            file,
+            out,
+            threads,
+            no_plot,
+        } => scenario_cmd::run(&file, out.as_deref(), threads, !no_plot),
+        Command::Demo {
+            out,
+            threads,
+            no_plot,
+        } => scenario_cmd::demo(&out, threads, !no_plot),
+        Command::Plot { dir, out } => plot_cmd::plot(&dir, out.as_deref()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            let chain: Vec<String> = e.chain().map(ToString::to_string).collect();
-            eprintln!("error: {}", chain.join(": "));
+            // A cause whose text its parent already quotes is not repeated.
+            let mut line = String::new();
+            for cause in e.chain().map(ToString::to_string) {
+                if line.is_empty() {
+                    line = cause;
+                } else if !line.ends_with(&cause) {
+                    line = format!("{line}: {cause}");
+                }
+            }
+            eprintln!("error: {line}");
             ExitCode::FAILURE
         }
     }

@@ -8,7 +8,7 @@ use std::time::Instant;
 use anyhow::Context;
 use dilata_run::{
     build_model, check_model, describe_stop, load_model, material_table, stop_target, Model,
-    Progress, RunOptions, RunSummary,
+    Progress, RunError, RunOptions, RunSummary,
 };
 
 use dilata_io::json::Json;
@@ -63,8 +63,13 @@ fn describe(model: &Model) {
     }
 }
 
-/// `dilata run FILE`.
-pub fn run(file: &Path, out: Option<&Path>, threads: Option<usize>) -> anyhow::Result<()> {
+/// `dilata run FILE`; draws the history figures at the end when `plot` is set.
+pub fn run(
+    file: &Path,
+    out: Option<&Path>,
+    threads: Option<usize>,
+    plot: bool,
+) -> anyhow::Result<()> {
     let model = load_model(file)?;
     let out = match out {
         Some(o) => o.to_path_buf(),
@@ -75,7 +80,11 @@ pub fn run(file: &Path, out: Option<&Path>, threads: Option<usize>) -> anyhow::R
             Path::new("dilata-out").join(stem.as_ref())
         }
     };
-    run_model(&model, &out, threads).map(|_| ())
+    run_model(&model, &out, threads)?;
+    if plot {
+        crate::plot_cmd::after_run(&out)?;
+    }
+    Ok(())
 }
 
 fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Result<RunSummary> {
@@ -94,7 +103,13 @@ fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Resul
         &mut |p| bar.update(p),
     );
     bar.finish();
-    let summary = summary?;
+    let summary = summary.map_err(|e| match e {
+        // Say which folder, in words, before the file-system detail.
+        RunError::Output(io) => {
+            anyhow::Error::new(io).context(format!("cannot write the results in {}", out.display()))
+        }
+        other => other.into(),
+    })?;
     println!(
         "done: {} steps ({} rejected attempts), t = {:.6e} s, {:.2} s wall",
         summary.steps, summary.rejected, summary.final_time, summary.wall_seconds
@@ -123,8 +138,9 @@ fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Resul
     Ok(summary)
 }
 
-/// `dilata demo`: the built-in scenario.
-pub fn demo(out: &Path, threads: Option<usize>) -> anyhow::Result<()> {
+/// `dilata demo`: the built-in scenario; draws the history figures at the end when `plot` is
+/// set.
+pub fn demo(out: &Path, threads: Option<usize>, plot: bool) -> anyhow::Result<()> {
     let model = build_model(
         DEMO_SCENARIO.to_string(),
         "built-in demo scenario",
@@ -133,6 +149,9 @@ pub fn demo(out: &Path, threads: Option<usize>) -> anyhow::Result<()> {
     let summary = run_model(&model, out, threads)?;
     if let Some((file, probes)) = &summary.last_snapshot {
         write_expectations(out, &model, file, probes)?;
+    }
+    if plot {
+        crate::plot_cmd::after_run(out)?;
     }
     Ok(())
 }

@@ -341,7 +341,9 @@ fn tiny22_is_valid() {
 
 #[test]
 fn truncated_ascii_file_names_section_and_end() {
-    let text = tiny22();
+    // Longer node lines, so that the bytes left after the cut could still hold the three
+    // nodes announced (a shorter rest is refused at the count, see msh_sizes.rs).
+    let text = tiny22().replace("1 0 0 0\n2 1 0 0\n", "1 0.000 0.000 0\n2 1.000 0.000 0\n");
     let cut = &text[..text.find("3 0 1 0").unwrap() + 4];
     let (loc, section, msg) = parse_error(cut);
     assert_eq!(section, "$Nodes");
@@ -634,10 +636,12 @@ fn same_tag_for_different_elements_is_an_error() {
 #[test]
 fn absurd_counts_do_not_allocate_or_panic() {
     let text = tiny22().replace("$Nodes\n3\n", "$Nodes\n18446744073709551615\n");
-    let (_, section, msg) = parse_error(&text);
+    let (loc, section, msg) = parse_error(&text);
     assert_eq!(section, "$Nodes");
+    // Refused at the count by the size check, before anything is allocated for it.
+    assert_eq!(loc, Location::Line { line: 5, column: 1 });
     assert!(
-        msg.contains("'$EndNodes'") || msg.contains("unexpected end of file"),
+        msg.contains("announces 18446744073709551615 nodes, but only"),
         "{msg}"
     );
     let (_, _, msg) =

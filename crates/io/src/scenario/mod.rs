@@ -2,7 +2,8 @@
 //! what to record (reference: `docs/scenario.md`).
 //!
 //! This module only reads the file into typed, spanned data and reports syntax errors, unknown
-//! keys and wrong types with file, line and column ([`ScenarioError`]). Checks that need the mesh
+//! keys, wrong types and a generated body of absurd size ([`MAX_GENERATED_CELLS`]) with file, line
+//! and column ([`ScenarioError`]). Checks that need the mesh
 //! (boundary and zone names) or the physics (parameter ranges) belong to the driver, which uses
 //! the spans kept here ([`Located`]) to report where the offending value was written.
 //!
@@ -35,9 +36,11 @@
 //! assert!(err.to_string().starts_with("bad.toml:1:9"), "{err}");
 //! ```
 
+mod limits;
 mod located;
 mod types;
 
+pub use limits::{generated_cells, MAX_GENERATED_CELLS};
 pub use located::{line_column, Located, ScenarioError};
 pub use types::{
     Amount, Body, BoundarySpec, Element, FreeEnergy, Geometry, Initial, LinearSolverName, Material,

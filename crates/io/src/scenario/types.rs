@@ -3,6 +3,7 @@
 
 use serde::Deserialize;
 
+use super::limits::{generated_cells, MAX_GENERATED_CELLS};
 use super::located::{Located, ScenarioError};
 
 /// A whole scenario.
@@ -39,12 +40,28 @@ pub struct Scenario {
 
 impl Scenario {
     /// Read a scenario from `text`; `file` is the name used in error messages. Syntax errors,
-    /// unknown keys and wrong types are reported with line and column.
+    /// unknown keys, wrong types and a generated body of absurd size (more than
+    /// [`MAX_GENERATED_CELLS`] cells) are reported with line and column.
     pub fn parse(text: &str, file: &str) -> Result<Scenario, ScenarioError> {
-        toml::from_str::<Scenario>(text).map_err(|e| {
+        let scenario = toml::from_str::<Scenario>(text).map_err(|e| {
             let at = e.span().map_or(0, |s| s.start);
             ScenarioError::at(text, file, at, e.message().trim_end().to_string())
-        })
+        })?;
+        if let Some(shape) = &scenario.body.shape {
+            let n = generated_cells(shape.get_ref());
+            if n > MAX_GENERATED_CELLS {
+                return Err(ScenarioError::at_span(
+                    text,
+                    file,
+                    shape.span(),
+                    format!(
+                        "a generated body of {n} cells is larger than any run could hold; \
+                         expected at most {MAX_GENERATED_CELLS} cells (check the 'cells' entry)"
+                    ),
+                ));
+            }
+        }
+        Ok(scenario)
     }
 }
 

@@ -135,11 +135,28 @@ impl<'a> Cursor<'a> {
         self.rest.len()
     }
 
-    /// How many items of at least `min_bytes` bytes each to preallocate for a count read from
-    /// the file: never more than the remaining input could hold.
-    pub(crate) fn capacity(&self, count: u64, min_bytes: usize) -> usize {
+    /// Size sanity check of a count read from the file at byte offset `at`, before anything is
+    /// allocated for it: `count` items of at least `min_bytes` bytes each must fit in the bytes
+    /// that remain, otherwise the file is refused with a located error. Returns the count.
+    pub(crate) fn checked_count(
+        &self,
+        count: u64,
+        min_bytes: usize,
+        at: usize,
+        what: &str,
+    ) -> Result<usize, MeshError> {
         let fit = self.remaining() / min_bytes.max(1);
-        usize::try_from(count).map_or(fit, |c| c.min(fit))
+        match usize::try_from(count) {
+            Ok(c) if c <= fit => Ok(c),
+            _ => Err(self.error_at(
+                at,
+                format!(
+                    "the file announces {count} {what}, but only {} bytes follow, room for at \
+                     most {fit} (each takes at least {min_bytes} bytes)",
+                    self.remaining()
+                ),
+            )),
+        }
     }
 
     /// An error at a byte offset in the current section.

@@ -40,6 +40,10 @@
 //! * Node tags may be sparse and unordered; points keep file order. A 2D mesh must lie in the
 //!   plane z = 0 (z is set exactly to zero within round-off).
 //!
+//! Counts in section headers (nodes, elements, physical tags of an entity) are checked against
+//! the bytes left in the file before anything is allocated for them: a count that the rest of
+//! the file cannot hold, at the smallest possible record size, is refused where it is written.
+//!
 //! Every problem is a [`MeshError::Parse`] with the file label, the location (line and column
 //! in ASCII files, byte offset in binary files), the section and what was expected.
 

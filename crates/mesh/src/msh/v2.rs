@@ -17,13 +17,16 @@ use crate::msh::kinds::{kind_of_code, supported_codes};
 
 /// Smallest size of one node record in bytes (a text line "1 0 0 0" or the binary record).
 const MIN_NODE_BYTES: usize = 8;
-/// Smallest size of one element record in bytes.
+/// Smallest size of one element record in bytes (a text line "1 15 0 1" or a binary record
+/// of at least two `int`s).
 const MIN_ELEMENT_BYTES: usize = 8;
 
 /// Read the body of `$Nodes` (after its start line) up to and including `$EndNodes`.
 pub(crate) fn read_nodes(cur: &mut Cursor<'_>, raw: &mut RawMesh) -> Result<(), MeshError> {
+    cur.skip_space();
+    let count_at = cur.offset();
     let count = cur.text_uint("the number of nodes")?;
-    let cap = cur.capacity(count, MIN_NODE_BYTES);
+    let cap = cur.checked_count(count, MIN_NODE_BYTES, count_at, "nodes")?;
     raw.node_tags.reserve(cap);
     raw.points.reserve(cap);
     match cur.encoding() {
@@ -75,8 +78,11 @@ fn kind_or_error(
 
 /// Read the body of `$Elements` up to and including `$EndElements`.
 pub(crate) fn read_elements(cur: &mut Cursor<'_>, raw: &mut RawMesh) -> Result<(), MeshError> {
+    cur.skip_space();
+    let count_at = cur.offset();
     let count = cur.text_uint("the number of elements")?;
-    raw.elements.reserve(cur.capacity(count, MIN_ELEMENT_BYTES));
+    raw.elements
+        .reserve(cur.checked_count(count, MIN_ELEMENT_BYTES, count_at, "elements")?);
     match cur.encoding() {
         Encoding::Ascii => {
             for _ in 0..count {

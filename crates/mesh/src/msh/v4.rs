@@ -20,8 +20,8 @@ use crate::msh::build::{DimTag, Owner, RawElement, RawMesh};
 use crate::msh::cursor::{Cursor, Encoding};
 use crate::msh::kinds::{kind_of_code, supported_codes};
 
-/// Smallest size of one item in bytes (a one-digit number and a separator in ASCII); used
-/// only to cap preallocation.
+/// Smallest size of one item in bytes (a one-digit number and a separator in ASCII); counts
+/// that the remaining bytes cannot hold at this size are refused before allocating.
 const MIN_ITEM_BYTES: usize = 2;
 
 /// An entity dimension (0 to 3) read as an `int`.
@@ -52,8 +52,11 @@ pub(crate) fn read_entities(cur: &mut Cursor<'_>, raw: &mut RawMesh) -> Result<(
             for _ in 0..n_box {
                 cur.real("an entity coordinate")?;
             }
+            cur.skip_if_ascii();
+            let n_phys_at = cur.offset();
             let n_phys = cur.size("the number of physical tags")?;
-            let mut phys = Vec::with_capacity(cur.capacity(n_phys, MIN_ITEM_BYTES));
+            let n_phys = cur.checked_count(n_phys, MIN_ITEM_BYTES, n_phys_at, "physical tags")?;
+            let mut phys = Vec::with_capacity(n_phys);
             for _ in 0..n_phys {
                 let p = cur.int("a physical tag")?;
                 if p != 0 {
@@ -86,7 +89,8 @@ pub(crate) fn read_nodes(cur: &mut Cursor<'_>, raw: &mut RawMesh) -> Result<(), 
     let total = cur.size("the number of nodes")?;
     cur.size("the smallest node tag")?;
     cur.size("the largest node tag")?;
-    let cap = cur.capacity(total, MIN_ITEM_BYTES * 4);
+    // A node is at least a tag and three coordinates.
+    let cap = cur.checked_count(total, MIN_ITEM_BYTES * 4, total_at, "nodes")?;
     raw.node_tags.reserve(cap);
     raw.points.reserve(cap);
     let mut read: u64 = 0;
@@ -147,8 +151,9 @@ pub(crate) fn read_elements(cur: &mut Cursor<'_>, raw: &mut RawMesh) -> Result<(
     let total = cur.size("the number of elements")?;
     cur.size("the smallest element tag")?;
     cur.size("the largest element tag")?;
-    raw.elements
-        .reserve(cur.capacity(total, MIN_ITEM_BYTES * 2));
+    // An element is at least a tag and one node.
+    let cap = cur.checked_count(total, MIN_ITEM_BYTES * 2, total_at, "elements")?;
+    raw.elements.reserve(cap);
     let mut read: u64 = 0;
     for _ in 0..n_blocks {
         let dim = entity_dim(cur, "the entity dimension of an element block")?;
