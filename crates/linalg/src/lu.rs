@@ -311,6 +311,34 @@ impl LinearSolver for FaerLu {
         Ok(())
     }
 
+    /// The row scales followed by the column scales of the last equilibration (the warm start
+    /// of the next one); empty before the first factorisation.
+    fn carried_state(&self) -> Vec<f64> {
+        let mut s = self.row_scale.clone();
+        s.extend_from_slice(&self.col_scale);
+        s
+    }
+
+    fn restore_carried_state(&mut self, state: &[f64]) -> Result<(), LinalgError> {
+        let n = self
+            .state
+            .as_ref()
+            .ok_or_else(|| LinalgError::Usage("restore_carried_state before analyze".into()))?
+            .pattern
+            .n();
+        if !state.is_empty() && state.len() != 2 * n {
+            return Err(LinalgError::Usage(format!(
+                "carried LU state has {} values, expected 0 or {} (row and column scales)",
+                state.len(),
+                2 * n
+            )));
+        }
+        let (rows, cols) = state.split_at(state.len() / 2);
+        self.row_scale = rows.to_vec();
+        self.col_scale = cols.to_vec();
+        Ok(())
+    }
+
     fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
         let n = self.state.as_ref().ok_or_else(missing_factor)?.pattern.n();
         if !self.factored {

@@ -9,22 +9,28 @@
 //! Every check that needs no computation happens in [`load_model`] and [`check_model`], so a
 //! bad scenario never starts a run and never touches an earlier results folder.
 
+mod checkpoint;
 mod driver;
 mod formula;
 mod model;
 mod program;
 mod record;
+mod report;
+mod resume;
 
 use std::path::PathBuf;
 
+pub use checkpoint::{
+    checkpoint_name, list_checkpoints, load_checkpoint, read_checkpoint, scenario_hash, Checkpoint,
+};
 pub use driver::{
-    build_dofs, check_model, describe_stop, run, stop_target, Progress, RunOptions, RunSummary,
-    StageOutcome,
+    build_dofs, check_model, describe_stop, run, run_with, stop_target, Progress, RunControl,
+    RunOptions, RunSummary, StageOutcome,
 };
 pub use formula::Formula;
 pub use model::{build_model, load_model, material_table, Model, FARADAY};
 pub use program::{value_at, Condition, ConditionKind, StagePlan, Target};
-pub use record::{nodal_field, HistoryRow, HISTORY_COLUMNS};
+pub use record::{nodal_field, HistoryRow, HISTORY_COLUMNS, TIMING_COLUMNS};
 
 /// Why a scenario could not be checked or run.
 #[derive(Debug, thiserror::Error)]
@@ -65,4 +71,26 @@ pub enum RunError {
     /// A numerical failure outside the time loop (initial state, solver set-up).
     #[error("{0}")]
     Numerical(String),
+    /// The run was asked to stop (Ctrl-C, SIGTERM) and stopped between two steps after
+    /// writing a checkpoint.
+    #[error(
+        "interrupted at t = {time:e} s; a checkpoint and the results so far are in {}; \
+         continue with: dilata resume {}",
+        out.display(),
+        out.display()
+    )]
+    Interrupted { time: f64, out: PathBuf },
+    /// A checkpoint file cannot be read or is damaged.
+    #[error("checkpoint {}: {message}", path.display())]
+    Checkpoint { path: PathBuf, message: String },
+    /// The scenario changed since the run started.
+    #[error(
+        "the scenario {file} differs from the one the run in {} was started with; pass \
+         --force to continue with the changed scenario",
+        out.display()
+    )]
+    ScenarioChanged { file: String, out: PathBuf },
+    /// A checkpoint cannot continue with this scenario, even forced.
+    #[error("cannot resume: {0}")]
+    Resume(String),
 }
