@@ -289,7 +289,11 @@ impl LinearSolver for FaerLu {
         match result {
             Ok(()) => {}
             Err(LuError::SymbolicSingular { index }) => {
-                return Err(LinalgError::Singular { pivot: Some(index) });
+                // faer counts columns of the column-permuted matrix (faer 0.24.4 source,
+                // sparse/linalg/lu.rs: column j is the input's column `fwd[j]`); report the
+                // input's index, a column of M = Aᵀ, i.e. an equation (row) of A.
+                let original = state.col_perm.fwd.get(index).copied();
+                return Err(LinalgError::Singular { pivot: original });
             }
             Err(LuError::Generic(e)) => {
                 return Err(LinalgError::Backend(format!("numeric LU failed: {e:?}")));

@@ -57,9 +57,13 @@ pub enum RunError {
          add supports or symmetry conditions, or set body.rigid_modes = \"pin\""
     )]
     RigidModes { stage: String, modes: String },
-    /// The time step fell below its minimum; results up to `time` are in `out`.
+    /// The time step fell below its minimum; results up to `time` and a checkpoint of the last
+    /// good state are in `out`.
     #[error(
-        "stage '{stage}' stopped at t = {time:e} s: {message}; results up to this time are in {}",
+        "stage '{stage}' stopped at t = {time:e} s: {message}; results up to this time and a \
+         checkpoint of the last good state are in {}; to go on with changed settings: dilata \
+         resume {} --force",
+        out.display(),
         out.display()
     )]
     Stalled {

@@ -6,25 +6,40 @@ use std::path::Path;
 use dilata_io::json::Json;
 use dilata_io::write_atomic;
 
-use crate::driver::RunSummary;
+use crate::driver::{build_dofs, RunSummary};
 use crate::model::Model;
 use crate::RunError;
 
-/// Add the zone and material of a cell named in a failure message.
+/// Add where a failure happened: the material, zones and centroid of a cell named in the
+/// message ("cell N"), or, for an unknown named by its index ("dof N", a non-finite residual),
+/// its field, node, position and the cells around it.
 pub(crate) fn explain_failure(model: &Model, message: &str) -> String {
-    let Some(pos) = message.find("cell ") else {
-        return message.to_string();
-    };
-    let digits: String = message[pos + 5..]
+    if let Some(cell) = number_after(message, "cell ").filter(|&c| c < model.mesh.n_cells()) {
+        return format!("{message} [{}]", describe_cell(model, cell));
+    }
+    // A DOF named by Newton ("dof N") or by the linear solver (a zero, infinite or NaN row or
+    // column of the tangent: "pivot Some(N)", an index of the original unknowns).
+    let dof = number_after(message, "dof ").or_else(|| number_after(message, "pivot Some("));
+    if let Some(dof) = dof {
+        if let Some(place) = describe_dof(model, dof) {
+            return format!("{message} [{place}]");
+        }
+    }
+    message.to_string()
+}
+
+/// The number right after the first `key` in `message`.
+fn number_after(message: &str, key: &str) -> Option<usize> {
+    let pos = message.find(key)?;
+    let digits: String = message[pos + key.len()..]
         .chars()
         .take_while(char::is_ascii_digit)
         .collect();
-    let Ok(cell) = digits.parse::<usize>() else {
-        return message.to_string();
-    };
-    if cell >= model.mesh.n_cells() {
-        return message.to_string();
-    }
+    digits.parse().ok()
+}
+
+/// "cell N: material 'm', zones [a, b], centroid (x, y, z)".
+fn describe_cell(model: &Model, cell: usize) -> String {
     let zones: Vec<&str> = model
         .mesh
         .regions
@@ -44,12 +59,57 @@ pub(crate) fn explain_failure(model: &Model, message: &str) -> String {
         c
     };
     format!(
-        "{message} [cell {cell}: material '{material}', zones [{}], centroid ({:e}, {:e}, {:e})]",
+        "cell {cell}: material '{material}', zones [{}], centroid ({:e}, {:e}, {:e})",
         zones.join(", "),
         centroid[0],
         centroid[1],
         centroid[2]
     )
+}
+
+/// "dof N: c at node K (x, y, z), in cells M (material 'm', zones [..]), .." for an unknown of the run's
+/// DOF map (rebuilt: it is a function of the model), or None for an index out of range.
+fn describe_dof(model: &Model, dof: usize) -> Option<String> {
+    let (dofs, fields) = build_dofs(model);
+    let named = [("u", fields.u), ("c", fields.c), ("mu", fields.mu)];
+    let (name, node, component) = named.iter().find_map(|&(name, field)| {
+        let n_components = dofs.spec(field).n_components;
+        dofs.field_nodes(field).into_iter().find_map(|node| {
+            (0..n_components)
+                .find(|&k| dofs.node_dof(field, node, k).ok() == Some(dof))
+                .map(|k| (name, node, k))
+        })
+    })?;
+    let p = model.mesh.points[node];
+    let what = if name == "u" {
+        format!("u_{}", ["x", "y", "z"][component])
+    } else {
+        name.to_string()
+    };
+    let around: Vec<String> = model
+        .mesh
+        .cells()
+        .filter(|(_, _, nodes)| nodes.contains(&node))
+        .map(|(id, _, _)| {
+            let zones: Vec<&str> = model
+                .mesh
+                .regions
+                .iter()
+                .filter(|(_, cells)| cells.binary_search(&id).is_ok())
+                .map(|(name, _)| name.as_str())
+                .collect();
+            let material = &model.material_names[model.laws.law_of_cell()[id] as usize];
+            format!("{id} (material '{material}', zones [{}])", zones.join(", "))
+        })
+        .collect();
+    let mut text = format!(
+        "dof {dof}: {what} at node {node} ({:e}, {:e}, {:e})",
+        p[0], p[1], p[2]
+    );
+    if !around.is_empty() {
+        text.push_str(&format!(", in cells {}", around.join(", ")));
+    }
+    Some(text)
 }
 
 pub(crate) fn write_summary(path: &Path, model: &Model, s: &RunSummary) -> Result<(), RunError> {
