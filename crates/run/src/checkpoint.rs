@@ -154,7 +154,11 @@ pub fn load_checkpoint(dir: &Path) -> Result<(PathBuf, Checkpoint), RunError> {
     }
     Err(first_error.unwrap_or_else(|| RunError::Checkpoint {
         path: dir.to_path_buf(),
-        message: "no checkpoint_*.dck file in this folder (was it written by `dilata run`?)".into(),
+        message: "no checkpoint_*.dck file in this folder; a run writes one when it is \
+                  interrupted (Ctrl-C, SIGTERM), when it stalls, and at the intervals \
+                  output.checkpoint_every (simulated time) and output.checkpoint_wall (wall \
+                  time, default 600 s)"
+            .into(),
     }))
 }
 

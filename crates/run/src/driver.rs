@@ -10,16 +10,12 @@ use std::time::Instant;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Constraints, FieldSpec, GeometryMode, Parallelism};
-use dilata_io::scenario::{
-    LinearSolverName, RigidModes, SchemeName, StopRule, DEFAULT_CHECKPOINT_WALL,
-};
+use dilata_io::scenario::{LinearSolverName, RigidModes, SchemeName, DEFAULT_CHECKPOINT_WALL};
 use dilata_io::{write_atomic, PvdWriter};
 use dilata_linalg::{build_solver_with, LinearSolver, Ordering, SolverConfig, SolverKind};
 use dilata_material::elastic::{hydrostatic, max_principal, von_mises};
 use dilata_physics::coupled::CoupledFields;
-use dilata_physics::coupled_post::{
-    boundary_mean, coupled_integrals, recover_coupled_nodal, BoundaryField, CoupledPost,
-};
+use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal, CoupledPost};
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::supports::{pin_rigid_modes, rigid_modes_left, RigidBody};
 use dilata_solve::time::{
@@ -30,11 +26,11 @@ use dilata_solve::{newton, NewtonParams, TransientSystem};
 use crate::checkpoint::{scenario_hash, Checkpoint};
 use crate::model::Model;
 use crate::program::{build_stage_setup, ConditionKind, StagePlan};
-use crate::record::{
-    nodal_field, write_snapshot, History, HistoryRow, Probe, RunLog, Snapshot, Timing,
+use crate::record::{nodal_field, write_snapshot, HistoryRow, Probe, Snapshot};
+use crate::report::{describe_stop, explain_failure, stop_quantity, stop_target, write_summary};
+use crate::resume::{
+    check_resumable, create_files, reopen_files, save_checkpoint, scenario_origin,
 };
-use crate::report::{explain_failure, write_summary};
-use crate::resume::{check_resumable, reopen_files, save_checkpoint, scenario_origin, Files};
 use crate::RunError;
 
 /// Newton steps below this fraction of a field's magnitude (or its scale: body size, RT) end
@@ -234,12 +230,7 @@ pub fn run_with(
     })?;
     write_atomic(&out.join("scenario.toml"), model.text.as_bytes())?;
     let mut files = match &control.resume {
-        None => Files {
-            history: History::create(&out.join("history.csv"))?,
-            log: RunLog::create(&out.join("run.log"))?,
-            timing: Timing::create(&out.join("timing.csv"))?,
-            pvd: PvdWriter::new(&out.join("fields.pvd")),
-        },
+        None => create_files(out)?,
         Some(c) => reopen_files(out, c)?,
     };
 
@@ -779,47 +770,4 @@ fn derive(model: &Model, problem: &CoupledProblem<'_>, x: &[f64]) -> Result<Deri
 fn integrate_rate(rule: &RateRule, inflow: (f64, f64), rate: f64) -> f64 {
     let (i_prev, i_n) = inflow;
     (rate - rule.a1 * i_n - rule.a2 * i_prev) / rule.a0
-}
-
-/// The value a stop rule waits for.
-pub fn stop_target(rule: &StopRule) -> f64 {
-    match rule {
-        StopRule::MeanConcentration { value }
-        | StopRule::BoundaryConcentration { value, .. }
-        | StopRule::PeakHydrostaticStress { value } => *value,
-    }
-}
-
-/// The quantity a stop rule watches, in words ("mean concentration on 'outer'").
-pub fn describe_stop(rule: &StopRule) -> String {
-    match rule {
-        StopRule::MeanConcentration { .. } => "mean concentration".into(),
-        StopRule::BoundaryConcentration { on, .. } => format!("mean concentration on '{on}'"),
-        StopRule::PeakHydrostaticStress { .. } => "peak hydrostatic stress".into(),
-    }
-}
-
-fn stop_quantity(
-    rule: &StopRule,
-    model: &Model,
-    problem: &CoupledProblem<'_>,
-    x: &[f64],
-    row: &HistoryRow,
-) -> Result<f64, RunError> {
-    Ok(match rule {
-        StopRule::MeanConcentration { .. } => row.c_mean,
-        StopRule::PeakHydrostaticStress { .. } => row.peak_hydrostatic,
-        StopRule::BoundaryConcentration { on, .. } => boundary_mean(
-            &model.mesh,
-            &BoundaryField {
-                dofs: &problem.dofs,
-                field: problem.fields.c,
-                component: 0,
-                mode: model.mode,
-                solution: x,
-            },
-            model.mesh.boundary(on).expect("checked with the scenario"),
-        )
-        .map_err(|e| RunError::Numerical(format!("stop rule on '{on}': {e}")))?,
-    })
 }

@@ -24,13 +24,14 @@ pub use checkpoint::{
     checkpoint_name, list_checkpoints, load_checkpoint, read_checkpoint, scenario_hash, Checkpoint,
 };
 pub use driver::{
-    build_dofs, check_model, describe_stop, run, run_with, stop_target, Progress, RunControl,
-    RunOptions, RunSummary, StageOutcome,
+    build_dofs, check_model, run, run_with, Progress, RunControl, RunOptions, RunSummary,
+    StageOutcome,
 };
 pub use formula::Formula;
 pub use model::{build_model, load_model, material_table, Model, FARADAY};
 pub use program::{value_at, Condition, ConditionKind, StagePlan, Target};
 pub use record::{nodal_field, HistoryRow, HISTORY_COLUMNS, TIMING_COLUMNS};
+pub use report::{describe_stop, stop_target};
 
 /// Why a scenario could not be checked or run.
 #[derive(Debug, thiserror::Error)]

@@ -358,3 +358,29 @@ pub fn write_snapshot(
         .collect();
     Ok((name, probes))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_reopened_file_is_cut_back_and_continued_and_a_short_one_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("run.log");
+        let mut log = RunLog::create(&path).unwrap();
+        log.note("first").unwrap();
+        let kept = log.n_bytes();
+        log.note("second, written after the checkpoint").unwrap();
+        drop(log);
+        let mut log = RunLog::reopen(&path, kept).unwrap();
+        log.note("third").unwrap();
+        assert_eq!(std::fs::read_to_string(&path).unwrap(), "first\nthird\n");
+        assert_eq!(log.n_bytes(), 12);
+        drop(log);
+        let err = RunLog::reopen(&path, 100).err().unwrap().to_string();
+        assert!(
+            err.contains("12 bytes but the checkpoint recorded 100"),
+            "{err}"
+        );
+    }
+}

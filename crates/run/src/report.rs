@@ -1,13 +1,17 @@
-//! What a run reports beyond the history: failure messages that name the cell, zone and
-//! material involved, and `summary.json`.
+//! What a run reports beyond the history: stop rules in words and their watched quantity,
+//! failure messages that name the cell, zone and material involved, and `summary.json`.
 
 use std::path::Path;
 
 use dilata_io::json::Json;
+use dilata_io::scenario::StopRule;
 use dilata_io::write_atomic;
+use dilata_physics::coupled_post::{boundary_mean, BoundaryField};
+use dilata_solve::coupled::CoupledProblem;
 
 use crate::driver::{build_dofs, RunSummary};
 use crate::model::Model;
+use crate::record::HistoryRow;
 use crate::RunError;
 
 /// Add where a failure happened: the material, zones and centroid of a cell named in the
@@ -167,4 +171,48 @@ pub(crate) fn write_summary(path: &Path, model: &Model, s: &RunSummary) -> Resul
     );
     write_atomic(path, doc.render().as_bytes())?;
     Ok(())
+}
+
+/// The value a stop rule waits for.
+pub fn stop_target(rule: &StopRule) -> f64 {
+    match rule {
+        StopRule::MeanConcentration { value }
+        | StopRule::BoundaryConcentration { value, .. }
+        | StopRule::PeakHydrostaticStress { value } => *value,
+    }
+}
+
+/// The quantity a stop rule watches, in words ("mean concentration on 'outer'").
+pub fn describe_stop(rule: &StopRule) -> String {
+    match rule {
+        StopRule::MeanConcentration { .. } => "mean concentration".into(),
+        StopRule::BoundaryConcentration { on, .. } => format!("mean concentration on '{on}'"),
+        StopRule::PeakHydrostaticStress { .. } => "peak hydrostatic stress".into(),
+    }
+}
+
+/// The current value of the quantity a stop rule watches.
+pub(crate) fn stop_quantity(
+    rule: &StopRule,
+    model: &Model,
+    problem: &CoupledProblem<'_>,
+    x: &[f64],
+    row: &HistoryRow,
+) -> Result<f64, RunError> {
+    Ok(match rule {
+        StopRule::MeanConcentration { .. } => row.c_mean,
+        StopRule::PeakHydrostaticStress { .. } => row.peak_hydrostatic,
+        StopRule::BoundaryConcentration { on, .. } => boundary_mean(
+            &model.mesh,
+            &BoundaryField {
+                dofs: &problem.dofs,
+                field: problem.fields.c,
+                component: 0,
+                mode: model.mode,
+                solution: x,
+            },
+            model.mesh.boundary(on).expect("checked with the scenario"),
+        )
+        .map_err(|e| RunError::Numerical(format!("stop rule on '{on}': {e}")))?,
+    })
 }

@@ -43,6 +43,27 @@ pub(crate) fn check_resumable(
     Ok(())
 }
 
+/// Create the result files of a new run; checkpoints of an earlier run in the same folder are
+/// removed (its history is being overwritten, so they could not resume anything).
+pub(crate) fn create_files(out: &Path) -> Result<Files, RunError> {
+    for steps in list_checkpoints(out)? {
+        let path = out.join(checkpoint_name(steps));
+        std::fs::remove_file(&path).map_err(|source| {
+            RunError::Output(dilata_io::IoError::Io {
+                path,
+                operation: "remove a checkpoint of an earlier run",
+                source,
+            })
+        })?;
+    }
+    Ok(Files {
+        history: History::create(&out.join("history.csv"))?,
+        log: RunLog::create(&out.join("run.log"))?,
+        timing: Timing::create(&out.join("timing.csv"))?,
+        pvd: PvdWriter::new(&out.join("fields.pvd")),
+    })
+}
+
 /// Open the result files of the run a checkpoint belongs to, cut back to the checkpoint: the
 /// history, log and timing files to their recorded lengths, the snapshots to the recorded list
 /// (later `.vtu` files and later checkpoints are removed).
