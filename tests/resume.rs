@@ -199,6 +199,7 @@ fn point_arrays(path: &Path) -> Vec<(String, Vec<f64>)> {
         .collect()
 }
 
+#[cfg(unix)]
 #[test]
 fn sigint_and_sigterm_stop_with_a_checkpoint_and_a_resume_hint() {
     let dir = tempfile::tempdir().unwrap();
