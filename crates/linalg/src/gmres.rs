@@ -50,106 +50,11 @@ impl LinearSolver for Gmres {
     fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
         let core = &self.core;
         let (a, m_op) = core.operators(rhs)?;
-        let par = core.parallelism;
-        let n = a.n_rows();
-        let m = core.params.restart.max(1);
-        let b = rhs.to_vec();
-        let b_norm = norm(&b);
-        let tol = core.threshold(b_norm);
-        let x = rhs;
-        x.fill(0.0);
-
-        // Krylov basis V (m + 1 vectors), Hessenberg H stored by columns (column j has j + 2
-        // entries), rotations (c, s), and the rotated right-hand side g.
-        let mut v: Vec<Vec<f64>> = (0..=m).map(|_| vec![0.0; n]).collect();
-        let mut h = vec![vec![0.0; m + 1]; m];
-        let (mut cs, mut sn) = (vec![0.0; m], vec![0.0; m]);
-        let mut g = vec![0.0; m + 1];
-        let (mut r, mut z, mut w) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
-        let mut iterations = 0;
-        loop {
-            let beta = residual_into(a, x, &b, &mut r, par);
-            if beta <= tol {
-                return Ok(SolveInfo {
-                    iterations,
-                    residual: Some(relative(beta, b_norm)),
-                });
-            }
-            if iterations >= core.params.max_iter {
-                return Err(LinalgError::NotConverged {
-                    iterations,
-                    residual: relative(beta, b_norm),
-                });
-            }
-            for (vi, ri) in v[0].iter_mut().zip(&r) {
-                *vi = ri / beta;
-            }
-            g.fill(0.0);
-            g[0] = beta;
-            let mut k = 0; // number of completed Arnoldi steps in this cycle
-            while k < m && iterations < core.params.max_iter {
-                // w = A M v_k
-                m_op.apply(&v[k], &mut z);
-                spmv(a, &z, &mut w, par);
-                iterations += 1;
-                for i in 0..=k {
-                    let hik = crate::krylov::dot(&w, &v[i]);
-                    h[k][i] = hik;
-                    for (wj, vj) in w.iter_mut().zip(&v[i]) {
-                        *wj -= hik * vj;
-                    }
-                }
-                let h_next = norm(&w);
-                h[k][k + 1] = h_next;
-                if h_next > 0.0 {
-                    for (vj, wj) in v[k + 1].iter_mut().zip(&w) {
-                        *vj = wj / h_next;
-                    }
-                }
-                // Apply the earlier rotations to the new column, then a new one to zero
-                // H[k+1][k].
-                for i in 0..k {
-                    let (a0, a1) = (h[k][i], h[k][i + 1]);
-                    h[k][i] = cs[i] * a0 + sn[i] * a1;
-                    h[k][i + 1] = -sn[i] * a0 + cs[i] * a1;
-                }
-                let (c, s) = givens(h[k][k], h[k][k + 1]);
-                cs[k] = c;
-                sn[k] = s;
-                h[k][k] = c * h[k][k] + s * h[k][k + 1];
-                h[k][k + 1] = 0.0;
-                g[k + 1] = -s * g[k];
-                g[k] *= c;
-                k += 1;
-                // |g[k]| is the residual norm of the current minimiser (Saad 2003, Prop. 6.9).
-                if g[k].abs() <= tol || h_next == 0.0 {
-                    break;
-                }
-            }
-            // Solve the k x k upper triangular system H y = g and update x += M (V y).
-            let mut y = vec![0.0; k];
-            for i in (0..k).rev() {
-                let mut s = g[i];
-                for j in i + 1..k {
-                    s -= h[j][i] * y[j];
-                }
-                if h[i][i] == 0.0 {
-                    // Singular Hessenberg block: A M is singular on the Krylov space.
-                    return Err(LinalgError::Singular { pivot: None });
-                }
-                y[i] = s / h[i][i];
-            }
-            w.fill(0.0);
-            for (yi, vi) in y.iter().zip(&v) {
-                for (wj, vj) in w.iter_mut().zip(vi) {
-                    *wj += yi * vj;
-                }
-            }
-            m_op.apply(&w, &mut z);
-            for (xi, zi) in x.iter_mut().zip(&z) {
-                *xi += zi;
-            }
-        }
+        let mut precondition = |r: &[f64], z: &mut [f64]| {
+            m_op.apply(r, z);
+            Ok(())
+        };
+        gmres_iterate(a, &mut precondition, &core.params, core.parallelism, rhs)
     }
 
     fn name(&self) -> String {
@@ -158,5 +63,118 @@ impl LinearSolver for Gmres {
             self.core.params.restart.max(1),
             self.core.preconditioner.name()
         )
+    }
+}
+
+/// A right preconditioner `z = M r` given as a closure that may fail.
+pub(crate) type PreconditionFn<'a> = dyn FnMut(&[f64], &mut [f64]) -> Result<(), LinalgError> + 'a;
+
+/// The GMRES(m) iteration of [`Gmres`] for any right preconditioner `z = M r` (given as a
+/// closure, which may fail): on entry `rhs` holds `b`, on exit `x` (zero initial guess).
+pub(crate) fn gmres_iterate(
+    a: &CsrMatrix,
+    precondition: &mut PreconditionFn<'_>,
+    params: &KrylovParams,
+    par: Parallelism,
+    rhs: &mut [f64],
+) -> Result<SolveInfo, LinalgError> {
+    let n = a.n_rows();
+    let m = params.restart.max(1);
+    let b = rhs.to_vec();
+    let b_norm = norm(&b);
+    let tol = (params.rel_tol * b_norm).max(params.abs_tol);
+    let x = rhs;
+    x.fill(0.0);
+
+    // Krylov basis V (m + 1 vectors), Hessenberg H stored by columns (column j has j + 2
+    // entries), rotations (c, s), and the rotated right-hand side g.
+    let mut v: Vec<Vec<f64>> = (0..=m).map(|_| vec![0.0; n]).collect();
+    let mut h = vec![vec![0.0; m + 1]; m];
+    let (mut cs, mut sn) = (vec![0.0; m], vec![0.0; m]);
+    let mut g = vec![0.0; m + 1];
+    let (mut r, mut z, mut w) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+    let mut iterations = 0;
+    loop {
+        let beta = residual_into(a, x, &b, &mut r, par);
+        if beta <= tol {
+            return Ok(SolveInfo {
+                iterations,
+                residual: Some(relative(beta, b_norm)),
+            });
+        }
+        if iterations >= params.max_iter {
+            return Err(LinalgError::NotConverged {
+                iterations,
+                residual: relative(beta, b_norm),
+            });
+        }
+        for (vi, ri) in v[0].iter_mut().zip(&r) {
+            *vi = ri / beta;
+        }
+        g.fill(0.0);
+        g[0] = beta;
+        let mut k = 0; // number of completed Arnoldi steps in this cycle
+        while k < m && iterations < params.max_iter {
+            // w = A M v_k
+            precondition(&v[k], &mut z)?;
+            spmv(a, &z, &mut w, par);
+            iterations += 1;
+            for i in 0..=k {
+                let hik = crate::krylov::dot(&w, &v[i]);
+                h[k][i] = hik;
+                for (wj, vj) in w.iter_mut().zip(&v[i]) {
+                    *wj -= hik * vj;
+                }
+            }
+            let h_next = norm(&w);
+            h[k][k + 1] = h_next;
+            if h_next > 0.0 {
+                for (vj, wj) in v[k + 1].iter_mut().zip(&w) {
+                    *vj = wj / h_next;
+                }
+            }
+            // Apply the earlier rotations to the new column, then a new one to zero
+            // H[k+1][k].
+            for i in 0..k {
+                let (a0, a1) = (h[k][i], h[k][i + 1]);
+                h[k][i] = cs[i] * a0 + sn[i] * a1;
+                h[k][i + 1] = -sn[i] * a0 + cs[i] * a1;
+            }
+            let (c, s) = givens(h[k][k], h[k][k + 1]);
+            cs[k] = c;
+            sn[k] = s;
+            h[k][k] = c * h[k][k] + s * h[k][k + 1];
+            h[k][k + 1] = 0.0;
+            g[k + 1] = -s * g[k];
+            g[k] *= c;
+            k += 1;
+            // |g[k]| is the residual norm of the current minimiser (Saad 2003, Prop. 6.9).
+            if g[k].abs() <= tol || h_next == 0.0 {
+                break;
+            }
+        }
+        // Solve the k x k upper triangular system H y = g and update x += M (V y).
+        let mut y = vec![0.0; k];
+        for i in (0..k).rev() {
+            let mut s = g[i];
+            for j in i + 1..k {
+                s -= h[j][i] * y[j];
+            }
+            if h[i][i] == 0.0 {
+                // Singular Hessenberg block: A M is singular on the Krylov space.
+                return Err(LinalgError::Singular { pivot: None });
+            }
+            y[i] = s / h[i][i];
+        }
+        w.fill(0.0);
+        for (yi, vi) in y.iter().zip(&v) {
+            for (wj, vj) in w.iter_mut().zip(vi) {
+                *wj += yi * vj;
+            }
+        }
+        precondition(&w, &mut z)?;
+        for (xi, zi) in x.iter_mut().zip(&z) {
+            *xi += zi;
+        }
     }
 }

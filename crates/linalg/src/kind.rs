@@ -11,6 +11,7 @@
 //! | `cg`, `cg-none`, `cg-jacobi`, `cg-ilu0` | [`Cg`] |
 //! | `bicgstab`, `bicgstab-none`, `bicgstab-jacobi`, `bicgstab-ilu0` | [`BiCgStab`] |
 //! | `gmres`, `gmres-none`, `gmres-jacobi`, `gmres-ilu0` | [`Gmres`] |
+//! | `symform`, `symform-metis`, `symform-amd`, `symform-natural` | [`SymmetricFormSolver`] (LU without a row transform) |
 
 use crate::cholesky::FaerCholesky;
 use crate::direct::DirectParams;
@@ -22,6 +23,7 @@ use crate::ordering::Ordering;
 use crate::parallel::Parallelism;
 use crate::precond::Preconditioner;
 use crate::solver::LinearSolver;
+use crate::symmetric_form::{SymmetricFormParams, SymmetricFormSolver};
 
 /// A solver family with its main option.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -38,6 +40,9 @@ pub enum SolverKind {
     BiCgStab(Preconditioner),
     /// Restarted, right-preconditioned GMRES (general).
     Gmres(Preconditioner),
+    /// GMRES preconditioned by the signed `LDLᵀ` of the symmetric part of a row-transformed
+    /// matrix (coupled systems that provide a row transform; LU otherwise).
+    SymmetricForm(Ordering),
 }
 
 impl SolverKind {
@@ -62,6 +67,7 @@ impl SolverKind {
             "cg" => preconditioner().map(SolverKind::Cg),
             "bicgstab" => preconditioner().map(SolverKind::BiCgStab),
             "gmres" => preconditioner().map(SolverKind::Gmres),
+            "symform" => ordering().map(SolverKind::SymmetricForm),
             _ => None,
         }
     }
@@ -75,6 +81,7 @@ impl SolverKind {
             SolverKind::Cg(p) => format!("cg-{}", p.name()),
             SolverKind::BiCgStab(p) => format!("bicgstab-{}", p.name()),
             SolverKind::Gmres(p) => format!("gmres-{}", p.name()),
+            SolverKind::SymmetricForm(o) => format!("symform-{}", o.name()),
         }
     }
 
@@ -92,6 +99,7 @@ impl SolverKind {
                 SolverKind::Cholesky(o),
                 SolverKind::Ldlt(o),
                 SolverKind::Lu(o),
+                SolverKind::SymmetricForm(o),
             ]);
         }
         for p in preconditioners {
@@ -132,5 +140,12 @@ pub fn build_solver_with(kind: SolverKind, config: SolverConfig) -> Box<dyn Line
         SolverKind::Cg(p) => Box::new(Cg::new(p, config.krylov, config.parallelism)),
         SolverKind::BiCgStab(p) => Box::new(BiCgStab::new(p, config.krylov, config.parallelism)),
         SolverKind::Gmres(p) => Box::new(Gmres::new(p, config.krylov, config.parallelism)),
+        SolverKind::SymmetricForm(ordering) => {
+            Box::new(SymmetricFormSolver::new(SymmetricFormParams {
+                ordering,
+                parallelism: config.parallelism,
+                ..SymmetricFormParams::default()
+            }))
+        }
     }
 }

@@ -123,7 +123,7 @@ impl FaerLdlt {
     }
 
     /// One application of the factors: `rhs := (factor)⁻¹ rhs`.
-    fn apply_factor(&mut self, rhs: &mut [f64]) -> Result<(), LinalgError> {
+    pub(crate) fn apply_factor(&mut self, rhs: &mut [f64]) -> Result<(), LinalgError> {
         let state = self.state.as_mut().ok_or_else(missing_factor)?;
         let n = state.pattern.n();
         let par = self.params.parallelism.to_faer();

@@ -46,6 +46,7 @@ pub mod ordering;
 pub mod parallel;
 pub mod precond;
 pub mod solver;
+pub mod symmetric_form;
 
 pub use cholesky::FaerCholesky;
 pub use csr::{CsrMatrix, CsrPattern};
@@ -59,3 +60,6 @@ pub use ordering::{build_permutation, Ordering, Permutation};
 pub use parallel::Parallelism;
 pub use precond::Preconditioner;
 pub use solver::{LinalgError, LinearSolver, SolveInfo};
+pub use symmetric_form::{
+    RowTransform, SymmetricFormParams, SymmetricFormSolver, SymmetricFormStats,
+};

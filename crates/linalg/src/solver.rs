@@ -7,6 +7,7 @@
 use thiserror::Error;
 
 use crate::csr::{CsrMatrix, CsrPattern};
+use crate::symmetric_form::RowTransform;
 
 /// Errors of the linear solvers. A singular or non-convergent system is recoverable numerical
 /// trouble for the caller (a time stepper may cut its step); misuse is a bug and panics.
@@ -41,6 +42,12 @@ pub trait LinearSolver: Send {
     fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError>;
     /// Solve `A x = b`; on entry `rhs` holds `b`, on exit `x`.
     fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError>;
+    /// A row rearrangement that makes the next matrices nearly symmetric (see
+    /// [`crate::symmetric_form`]), given before `factor`. Solvers that cannot use it ignore it
+    /// (the default); an inconsistent transform is a usage error.
+    fn set_row_transform(&mut self, _transform: RowTransform) -> Result<(), LinalgError> {
+        Ok(())
+    }
     /// A short human-readable name ("faer-cholesky/metis").
     fn name(&self) -> String;
     /// Numbers a solver carries from one factorisation to the next that change its results

@@ -657,9 +657,15 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
     }
 }
 
-/// Direct LU (AMD in 2D, nested dissection in 3D) or GMRES with ILU(0).
+/// The symmetric-form solver or the direct LU (AMD in 2D, nested dissection in 3D), or GMRES
+/// with ILU(0).
 fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver> {
+    let ordering = match model.mode {
+        GeometryMode::ThreeD => Ordering::NestedDissection,
+        _ => Ordering::Amd,
+    };
     let kind = match model.scenario.solver.linear {
+        LinearSolverName::Symmetric => SolverKind::SymmetricForm(ordering),
         LinearSolverName::Direct if model.mode == GeometryMode::ThreeD => {
             SolverKind::Lu(Ordering::NestedDissection)
         }

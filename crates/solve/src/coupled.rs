@@ -13,7 +13,7 @@ use std::sync::Arc;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Assembler, AssemblyTarget, Constraints, GeometryMode, Parallelism};
-use dilata_linalg::{CsrMatrix, CsrPattern};
+use dilata_linalg::{CsrMatrix, CsrPattern, RowTransform};
 use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{
     CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
@@ -419,6 +419,58 @@ impl DiscreteSystem for CoupledProblem<'_> {
 
     fn reuse_jacobian(&self) -> bool {
         self.reuse_jacobian
+    }
+
+    /// The rearrangement that makes the Jacobian symmetric up to the terms of a concentration-
+    /// dependent mobility and of exchange boundaries (docs/theory.md, "Symmetric form of the
+    /// coupled Jacobian"). At a node without prescribed values, the mass row (tested with `N`,
+    /// `∂/∂c ≈ a0 M`) moves to the `μ` position scaled by `−1/a0` and the potential row to the
+    /// `c` position scaled by `−1`: the potential block of the result is then `−K/a0` (negative
+    /// semidefinite), the `(u, c)` block the Hessian of the free energy (positive definite for a
+    /// supported body and a convex chemical energy), and the `c`–`μ` blocks `−M` on both sides.
+    /// Where `μ` is prescribed the rows are already swapped (see `RowSwap`); where `c` is, the
+    /// potential row stays in place (that node's rows are not symmetric). Rows of prescribed
+    /// values are identities. `None` when `c` and `μ` have different orders.
+    fn row_transform(&self) -> Option<RowTransform> {
+        let (fc, fm) = (self.fields.c, self.fields.mu);
+        if self.dofs.spec(fc).order != self.dofs.spec(fm).order {
+            return None;
+        }
+        let n = self.dofs.n_dofs();
+        let mut target: Vec<usize> = (0..n).collect();
+        let mut scale = vec![1.0; n];
+        let mut signs = vec![1i8; n];
+        let mass_scale = if self.a0 > 0.0 { -1.0 / self.a0 } else { -1.0 };
+        for node in self.dofs.field_nodes(fc) {
+            let dc = self.dofs.node_dof(fc, node, 0).expect("node carries c");
+            let dm = self
+                .dofs
+                .node_dof(fm, node, 0)
+                .expect("equal orders: node carries mu");
+            let c_fixed = self.constraints.is_constrained(dc);
+            let mu_fixed = self.constraints.is_constrained(dm);
+            match (c_fixed, mu_fixed) {
+                (true, true) => {}
+                // Swapped at assembly: the potential equation sits in the c row.
+                (false, true) => scale[dc] = -1.0,
+                (true, false) => {
+                    scale[dm] = -1.0;
+                    signs[dm] = -1;
+                }
+                (false, false) => {
+                    target[dc] = dm;
+                    scale[dc] = mass_scale;
+                    target[dm] = dc;
+                    scale[dm] = -1.0;
+                    signs[dm] = -1;
+                }
+            }
+        }
+        Some(RowTransform {
+            target,
+            scale,
+            signs,
+        })
     }
 
     fn blocks(&self) -> Vec<std::ops::Range<usize>> {

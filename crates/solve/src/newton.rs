@@ -2,7 +2,7 @@
 
 use std::sync::Arc;
 
-use dilata_linalg::{CsrMatrix, CsrPattern, LinalgError, LinearSolver};
+use dilata_linalg::{CsrMatrix, CsrPattern, LinalgError, LinearSolver, RowTransform};
 
 /// A discrete nonlinear system `R(x) = 0` with a Jacobian on a fixed pattern.
 ///
@@ -41,6 +41,11 @@ pub trait DiscreteSystem {
     /// iteration (plain Newton).
     fn reuse_jacobian(&self) -> bool {
         false
+    }
+    /// A row rearrangement that makes the Jacobian nearly symmetric, handed to the linear
+    /// solver before every factorisation (see `dilata_linalg::symmetric_form`). Default: none.
+    fn row_transform(&self) -> Option<RowTransform> {
+        None
     }
 }
 
@@ -170,6 +175,9 @@ pub fn newton<S: DiscreteSystem>(
     let mut factored_current = false;
     for it in 1..=params.max_iterations {
         if !factored_current {
+            if let Some(transform) = system.row_transform() {
+                solver.set_row_transform(transform)?;
+            }
             solver.factor(&jac)?;
             info.factorizations += 1;
             factored_current = true;

@@ -454,8 +454,11 @@ impl Default for OutputSpec {
 #[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
 #[serde(rename_all = "snake_case")]
 pub enum LinearSolverName {
-    /// Sparse LU, fill-reducing ordering chosen by dimension (AMD in 2D, METIS in 3D).
+    /// GMRES preconditioned by a symmetric factorisation of the rearranged Jacobian, with the
+    /// sparse LU as fallback (and the LU alone when c and mu have different orders).
     #[default]
+    Symmetric,
+    /// Sparse LU, fill-reducing ordering chosen by dimension (AMD in 2D, METIS in 3D).
     Direct,
     /// Restarted GMRES with ILU(0).
     Iterative,

@@ -1,0 +1,530 @@
+//! A solver for coupled systems that are nearly symmetric after their rows are rearranged.
+//!
+//! The Jacobian `J` of a mixed problem is often assembled with its equations in an order (and
+//! units) that hides a symmetric structure: the Jacobian of the coupled displacement–
+//! concentration–potential problem becomes symmetric, up to the terms of a concentration-
+//! dependent mobility and of boundary exchange, once the mass and potential rows of each node
+//! trade places and are scaled (see docs/theory.md, "Symmetric form of the coupled Jacobian").
+//! The caller describes that rearrangement as a [`RowTransform`] `T` (a row permutation with
+//! a scale per row). This solver then
+//!
+//! 1. forms `A = T J` and its symmetric part `S = (A + Aᵀ)/2`;
+//! 2. equilibrates `S` symmetrically, `Ŝ = D S D` (Ruiz's iteration with square roots of row
+//!    maxima, which keeps the symmetry);
+//! 3. factors `Ŝ` with the signed `LDLᵀ` of [`crate::ldlt`] (static pivots whose signs the
+//!    transform gives: `+` for the positive definite block, `−` for the potential block), whose
+//!    fill is that of a symmetric factorisation of the pattern, far below the `AᵀA`-bounded
+//!    fill of a sparse LU with partial pivoting;
+//! 4. solves `(D A D) y = D T b`, `x = D y` by GMRES right-preconditioned with `Ŝ⁻¹` (where `A`
+//!    is exactly symmetric, one iteration; otherwise as many as the nonsymmetric part needs).
+//!
+//! The factorisation of `Ŝ` may be kept from one `factor` call to the next while GMRES still
+//! converges in few iterations ([`SymmetricFormParams::reuse_iterations`]): the solves stay
+//! exact to the GMRES tolerance whatever the preconditioner's age. If the signed `LDLᵀ` breaks
+//! down, or GMRES does not converge even with a fresh preconditioner, the solve falls back to
+//! the sparse LU ([`crate::lu::FaerLu`]) on `J` itself, and counts it in the statistics.
+//! Without a transform (a system that provides none) every solve is the LU's.
+
+use std::sync::Arc;
+
+use crate::csr::{CsrMatrix, CsrPattern};
+use crate::direct::{check_rhs_len, DirectParams};
+use crate::gmres::gmres_iterate;
+use crate::krylov::KrylovParams;
+use crate::ldlt::{FaerLdlt, LdltPivoting, SignedPivots};
+use crate::lu::FaerLu;
+use crate::ordering::Ordering;
+use crate::parallel::Parallelism;
+use crate::solver::{LinalgError, LinearSolver, SolveInfo};
+
+/// A row rearrangement `T` of a square system: row `i` of `J` becomes row `target[i]` of
+/// `T J`, multiplied by `scale[i]`.
+#[derive(Clone, Debug, PartialEq)]
+pub struct RowTransform {
+    /// A permutation of `0..n`.
+    pub target: Vec<usize>,
+    /// Nonzero, finite factors.
+    pub scale: Vec<f64>,
+    /// Expected sign (`+1` or `−1`) of the pivot of each unknown in the symmetric form.
+    pub signs: Vec<i8>,
+}
+
+impl RowTransform {
+    /// Number of rows.
+    pub fn len(&self) -> usize {
+        self.target.len()
+    }
+
+    /// True for a transform of no rows.
+    pub fn is_empty(&self) -> bool {
+        self.target.is_empty()
+    }
+
+    fn check(&self, n: usize) -> Result<(), LinalgError> {
+        let bad = |what: &str| Err(LinalgError::Usage(format!("row transform: {what}")));
+        if self.target.len() != n || self.scale.len() != n || self.signs.len() != n {
+            return bad(&format!(
+                "lengths {}, {}, {} for {n} rows",
+                self.target.len(),
+                self.scale.len(),
+                self.signs.len()
+            ));
+        }
+        let mut seen = vec![false; n];
+        for &t in &self.target {
+            if t >= n || seen[t] {
+                return bad("target is not a permutation");
+            }
+            seen[t] = true;
+        }
+        if self.scale.iter().any(|s| !s.is_finite() || *s == 0.0) {
+            return bad("a scale is zero or not finite");
+        }
+        Ok(())
+    }
+}
+
+/// Settings of [`SymmetricFormSolver`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct SymmetricFormParams {
+    /// Fill-reducing ordering of the symmetric factorisation.
+    pub ordering: Ordering,
+    /// Threads for factorisations, solves and matrix–vector products.
+    pub parallelism: Parallelism,
+    /// GMRES tolerance (relative, on the equilibrated system), restart and iteration limit.
+    pub krylov: KrylovParams,
+    /// Keep the factorisation of an earlier `factor` call while the last solve needed at most
+    /// this many GMRES iterations (0: factor on every call).
+    pub reuse_iterations: usize,
+}
+
+impl Default for SymmetricFormParams {
+    /// AMD ordering, sequential, GMRES(40) to `1e-8` in at most 80 iterations, preconditioner
+    /// kept while a solve takes at most 6 iterations (measured on the charging-particle
+    /// benchmark, docs/performance.md: a fresh factorisation costs about as much as five GMRES
+    /// iterations there).
+    fn default() -> Self {
+        SymmetricFormParams {
+            ordering: Ordering::Amd,
+            parallelism: Parallelism::Sequential,
+            krylov: KrylovParams {
+                rel_tol: 1e-8,
+                abs_tol: 0.0,
+                max_iter: 80,
+                restart: 40,
+            },
+            reuse_iterations: 6,
+        }
+    }
+}
+
+/// What the solver did so far.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct SymmetricFormStats {
+    /// `factor` calls.
+    pub factor_calls: usize,
+    /// Factorisations of the symmetric part (the rest reused an earlier one).
+    pub symmetric_factorizations: usize,
+    /// Solves.
+    pub solves: usize,
+    /// GMRES iterations over all solves.
+    pub gmres_iterations: usize,
+    /// Solves done by the LU fallback.
+    pub lu_solves: usize,
+}
+
+/// Index structure for one transform permutation on one pattern.
+struct Structure {
+    target: Vec<usize>,
+    signs: Vec<i8>,
+    /// Pattern of `A = T J`.
+    a_pattern: Arc<CsrPattern>,
+    /// For each entry of `A` (CSR order): the index of the same value in `J`.
+    a_src: Vec<usize>,
+    /// The row of `J` that row `r` of `A` came from.
+    a_row_src: Vec<usize>,
+    /// Pattern of `S` (symmetric closure of `A`'s pattern).
+    s_pattern: Arc<CsrPattern>,
+    /// For each entry `(r, c)` of `A`: positions of `(r, c)` and `(c, r)` in `S`.
+    s_pos: Vec<[usize; 2]>,
+}
+
+impl Structure {
+    fn build(j: &CsrPattern, t: &RowTransform) -> Structure {
+        let n = j.n_rows;
+        let mut a_row_src = vec![0; n];
+        for (i, &r) in t.target.iter().enumerate() {
+            a_row_src[r] = i;
+        }
+        let mut row_ptr = Vec::with_capacity(n + 1);
+        row_ptr.push(0);
+        let mut col_idx = Vec::with_capacity(j.nnz());
+        let mut a_src = Vec::with_capacity(j.nnz());
+        for &i in &a_row_src {
+            col_idx.extend_from_slice(j.row(i));
+            a_src.extend(j.row_ptr[i]..j.row_ptr[i + 1]);
+            row_ptr.push(col_idx.len());
+        }
+        let a_pattern = CsrPattern {
+            n_rows: n,
+            n_cols: j.n_cols,
+            row_ptr,
+            col_idx,
+        };
+        let mut rows: Vec<Vec<usize>> = (0..n).map(|r| a_pattern.row(r).to_vec()).collect();
+        for r in 0..n {
+            for &c in a_pattern.row(r) {
+                rows[c].push(r);
+            }
+        }
+        let s_pattern = CsrPattern::from_rows(n, rows);
+        let mut s_pos = Vec::with_capacity(a_pattern.nnz());
+        for r in 0..n {
+            for &c in a_pattern.row(r) {
+                let rc = s_pattern.find(r, c).expect("closure holds (r, c)");
+                let cr = s_pattern.find(c, r).expect("closure holds (c, r)");
+                s_pos.push([rc, cr]);
+            }
+        }
+        Structure {
+            target: t.target.clone(),
+            signs: t.signs.clone(),
+            a_pattern: Arc::new(a_pattern),
+            a_src,
+            a_row_src,
+            s_pattern: Arc::new(s_pattern),
+            s_pos,
+        }
+    }
+}
+
+/// The symmetric-part preconditioned solver (see the module documentation).
+pub struct SymmetricFormSolver {
+    params: SymmetricFormParams,
+    pattern: Option<Arc<CsrPattern>>,
+    transform: Option<RowTransform>,
+    structure: Option<Structure>,
+    ldlt: Option<FaerLdlt>,
+    /// Symmetric scaling `D` of the current factorisation.
+    d: Vec<f64>,
+    /// Whether `ldlt` holds a usable factorisation.
+    preconditioner_ready: bool,
+    /// Whether the factorisation was built from the current `J`.
+    preconditioner_fresh: bool,
+    last_iterations: usize,
+    /// `D T J D` on `A`'s pattern, for the current `J`.
+    a_hat: Option<CsrMatrix>,
+    /// The current `J`, for the LU fallback and for refreshing the preconditioner.
+    jac: Option<CsrMatrix>,
+    lu: Option<FaerLu>,
+    lu_factored: bool,
+    stats: SymmetricFormStats,
+}
+
+impl SymmetricFormSolver {
+    /// A solver with the given settings.
+    pub fn new(params: SymmetricFormParams) -> Self {
+        SymmetricFormSolver {
+            params,
+            pattern: None,
+            transform: None,
+            structure: None,
+            ldlt: None,
+            d: Vec::new(),
+            preconditioner_ready: false,
+            preconditioner_fresh: false,
+            last_iterations: 0,
+            a_hat: None,
+            jac: None,
+            lu: None,
+            lu_factored: false,
+            stats: SymmetricFormStats::default(),
+        }
+    }
+
+    /// Counts of factorisations, GMRES iterations and fallbacks so far.
+    pub fn stats(&self) -> SymmetricFormStats {
+        self.stats
+    }
+
+    fn direct_params(&self) -> DirectParams {
+        DirectParams {
+            ordering: self.params.ordering,
+            parallelism: self.params.parallelism,
+        }
+    }
+
+    /// Make sure the structure and the symbolic `LDLᵀ` belong to the current transform.
+    fn prepare_structure(&mut self) -> Result<(), LinalgError> {
+        let (Some(pattern), Some(t)) = (self.pattern.as_ref(), self.transform.as_ref()) else {
+            return Ok(());
+        };
+        let current = self
+            .structure
+            .as_ref()
+            .is_some_and(|s| s.target == t.target && s.signs == t.signs);
+        if current {
+            return Ok(());
+        }
+        let structure = Structure::build(pattern, t);
+        let pivots = LdltPivoting::Signed(SignedPivots::with_signs(t.signs.clone()));
+        let mut ldlt = FaerLdlt::with_pivoting(self.direct_params(), pivots);
+        ldlt.analyze(&structure.s_pattern)?;
+        self.structure = Some(structure);
+        self.ldlt = Some(ldlt);
+        self.preconditioner_ready = false;
+        self.d.clear();
+        Ok(())
+    }
+
+    /// Factor the symmetric part of `T J` (for the `J` stored in `self.jac`) and set `D`.
+    fn build_preconditioner(&mut self) -> Result<(), LinalgError> {
+        self.preconditioner_ready = false;
+        let (Some(st), Some(t), Some(jac), Some(ldlt)) = (
+            self.structure.as_ref(),
+            self.transform.as_ref(),
+            self.jac.as_ref(),
+            self.ldlt.as_mut(),
+        ) else {
+            return Err(LinalgError::Usage("symmetric form not prepared".into()));
+        };
+        let mut s = CsrMatrix::zeros(st.s_pattern.clone());
+        for r in 0..st.a_pattern.n_rows {
+            let src_row = st.a_row_src[r];
+            let scale = 0.5 * t.scale[src_row];
+            for k in st.a_pattern.row_ptr[r]..st.a_pattern.row_ptr[r + 1] {
+                let v = scale * jac.values[st.a_src[k]];
+                let [rc, cr] = st.s_pos[k];
+                s.values[rc] += v;
+                s.values[cr] += v;
+            }
+        }
+        symmetric_equilibrate_into(&mut s, &mut self.d)?;
+        ldlt.factor(&s)?;
+        self.stats.symmetric_factorizations += 1;
+        self.preconditioner_ready = true;
+        self.preconditioner_fresh = true;
+        Ok(())
+    }
+
+    /// `D T J D` for the current `J` and `D`.
+    fn build_a_hat(&mut self) {
+        let (Some(st), Some(t), Some(jac)) = (
+            self.structure.as_ref(),
+            self.transform.as_ref(),
+            self.jac.as_ref(),
+        ) else {
+            return;
+        };
+        let p = st.a_pattern.as_ref();
+        let a = self
+            .a_hat
+            .get_or_insert_with(|| CsrMatrix::zeros(st.a_pattern.clone()));
+        if !Arc::ptr_eq(&a.pattern, &st.a_pattern) {
+            *a = CsrMatrix::zeros(st.a_pattern.clone());
+        }
+        let d = &self.d;
+        for r in 0..p.n_rows {
+            let row_factor = d[r] * t.scale[st.a_row_src[r]];
+            for k in p.row_ptr[r]..p.row_ptr[r + 1] {
+                a.values[k] = row_factor * jac.values[st.a_src[k]] * d[p.col_idx[k]];
+            }
+        }
+    }
+
+    fn lu_solve(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
+        let jac = self.jac.as_ref().ok_or_else(missing_factor)?;
+        if self.lu.is_none() {
+            let pattern = self.pattern.as_ref().ok_or_else(missing_factor)?;
+            let mut lu = FaerLu::new(self.direct_params());
+            lu.analyze(pattern)?;
+            self.lu = Some(lu);
+        }
+        let lu = self.lu.as_mut().expect("set above");
+        if !self.lu_factored {
+            lu.factor(jac)?;
+            self.lu_factored = true;
+        }
+        self.stats.lu_solves += 1;
+        lu.solve_in_place(rhs)
+    }
+
+    /// GMRES on `D T J D y = D T b` with the current preconditioner; `rhs` is unchanged on
+    /// failure.
+    fn gmres_solve(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
+        let (Some(t), Some(a), Some(ldlt)) = (
+            self.transform.as_ref(),
+            self.a_hat.as_ref(),
+            self.ldlt.as_mut(),
+        ) else {
+            return Err(missing_factor());
+        };
+        let d = &self.d;
+        let mut y = vec![0.0; rhs.len()];
+        for (i, &b) in rhs.iter().enumerate() {
+            let r = t.target[i];
+            y[r] = d[r] * t.scale[i] * b;
+        }
+        let mut precondition = |r: &[f64], z: &mut [f64]| {
+            z.copy_from_slice(r);
+            ldlt.apply_factor(z)
+        };
+        let info = gmres_iterate(
+            a,
+            &mut precondition,
+            &self.params.krylov,
+            self.params.parallelism,
+            &mut y,
+        )?;
+        for (x, (yi, di)) in rhs.iter_mut().zip(y.iter().zip(d)) {
+            *x = yi * di;
+        }
+        Ok(info)
+    }
+}
+
+fn missing_factor() -> LinalgError {
+    LinalgError::Usage("solve called before a successful factor".into())
+}
+
+/// Symmetric Ruiz scaling: `d_i ← d_i / sqrt(max_j |d_i s_ij d_j|)` until every row maximum of
+/// `D S D` is within 5 % of one (at most 30 sweeps), then `s := D S D`. Keeps `S` symmetric
+/// (Ruiz, RAL-TR-2001-034, 2001, the symmetric case; from memory). A zero row is singular.
+fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(), LinalgError> {
+    const MAX_SWEEPS: usize = 30;
+    const TOLERANCE: f64 = 0.05;
+    let p = s.pattern.clone();
+    let n = p.n_rows;
+    d.clear();
+    d.resize(n, 1.0);
+    let original = s.values.clone();
+    let mut row_max = vec![0.0f64; n];
+    for _ in 0..MAX_SWEEPS {
+        row_max.iter_mut().for_each(|m| *m = 0.0);
+        for i in 0..n {
+            for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+                let v = (d[i] * original[k] * d[p.col_idx[k]]).abs();
+                row_max[i] = row_max[i].max(v);
+            }
+        }
+        if let Some(i) = row_max
+            .iter()
+            .position(|m| m.is_nan() || *m <= 0.0 || !m.is_finite())
+        {
+            return Err(LinalgError::Singular { pivot: Some(i) });
+        }
+        if row_max.iter().all(|m| (m - 1.0).abs() <= TOLERANCE) {
+            break;
+        }
+        for (di, m) in d.iter_mut().zip(&row_max) {
+            *di /= m.sqrt();
+        }
+    }
+    for i in 0..n {
+        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+            s.values[k] = d[i] * original[k] * d[p.col_idx[k]];
+        }
+    }
+    Ok(())
+}
+
+impl LinearSolver for SymmetricFormSolver {
+    fn analyze(&mut self, pattern: &CsrPattern) -> Result<(), LinalgError> {
+        if pattern.n_rows != pattern.n_cols {
+            return Err(LinalgError::Usage("matrix is not square".into()));
+        }
+        self.pattern = Some(Arc::new(pattern.clone()));
+        self.structure = None;
+        self.ldlt = None;
+        self.lu = None;
+        self.lu_factored = false;
+        self.preconditioner_ready = false;
+        self.a_hat = None;
+        self.jac = None;
+        self.prepare_structure()
+    }
+
+    fn set_row_transform(&mut self, transform: RowTransform) -> Result<(), LinalgError> {
+        let n = self.pattern.as_ref().map_or(transform.len(), |p| p.n_rows);
+        transform.check(n)?;
+        self.transform = Some(transform);
+        self.prepare_structure()
+    }
+
+    fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
+        self.stats.factor_calls += 1;
+        let pattern = self
+            .pattern
+            .as_ref()
+            .ok_or_else(|| LinalgError::Usage("factor called before analyze".into()))?;
+        if matrix.pattern.as_ref() != pattern.as_ref() {
+            return Err(LinalgError::Usage(
+                "matrix pattern differs from the analysed one".into(),
+            ));
+        }
+        match self.jac.as_mut() {
+            Some(j) => j.values.copy_from_slice(&matrix.values),
+            None => self.jac = Some(matrix.clone()),
+        }
+        self.lu_factored = false;
+        self.preconditioner_fresh = false;
+        if self.structure.is_none() {
+            return Ok(());
+        }
+        let reuse = self.preconditioner_ready
+            && self.params.reuse_iterations > 0
+            && self.last_iterations <= self.params.reuse_iterations;
+        if !reuse {
+            // A breakdown of the signed factorisation is not an error of the system: the
+            // solves fall back to the LU.
+            if self.build_preconditioner().is_err() {
+                self.preconditioner_ready = false;
+            }
+        }
+        if self.preconditioner_ready {
+            self.build_a_hat();
+        }
+        Ok(())
+    }
+
+    fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
+        let n = self.pattern.as_ref().ok_or_else(missing_factor)?.n_rows;
+        check_rhs_len(n, rhs)?;
+        self.stats.solves += 1;
+        if !self.preconditioner_ready {
+            return self.lu_solve(rhs);
+        }
+        match self.gmres_solve(rhs) {
+            Ok(info) => {
+                self.stats.gmres_iterations += info.iterations;
+                self.last_iterations = info.iterations;
+                return Ok(info);
+            }
+            Err(LinalgError::NotConverged { iterations, .. }) => {
+                self.stats.gmres_iterations += iterations;
+                self.last_iterations = usize::MAX;
+            }
+            Err(e) => return Err(e),
+        }
+        // Not converged: retry with a preconditioner from this very matrix, then the LU.
+        if !self.preconditioner_fresh && self.build_preconditioner().is_ok() {
+            self.build_a_hat();
+            match self.gmres_solve(rhs) {
+                Ok(info) => {
+                    self.stats.gmres_iterations += info.iterations;
+                    self.last_iterations = info.iterations;
+                    return Ok(info);
+                }
+                Err(LinalgError::NotConverged { iterations, .. }) => {
+                    self.stats.gmres_iterations += iterations;
+                }
+                Err(e) => return Err(e),
+            }
+        }
+        self.lu_solve(rhs)
+    }
+
+    fn name(&self) -> String {
+        format!("gmres/symmetric-ldlt/{}", self.params.ordering.name())
+    }
+}
