@@ -83,4 +83,56 @@ fn a_stalled_run_names_the_cell_and_keeps_its_results() {
     assert!(pvd.matches("<DataSet").count() >= 2, "{pvd}");
     let log = std::fs::read_to_string(dir.path().join("run.log")).unwrap();
     assert!(log.contains("stage 'flood' stopped"), "{log}");
+    // The last good state is also a checkpoint, from which a changed scenario can go on.
+    let (path, checkpoint) = dilata_run::load_checkpoint(dir.path()).unwrap();
+    assert!(log.contains(&path.display().to_string()), "{log}");
+    match &err {
+        RunError::Stalled { time, .. } => assert_eq!(checkpoint.integrator.t, *time),
+        _ => unreachable!(),
+    }
+}
+
+/// One zone so stiff (E = 1e307 Pa) that its stresses and residual overflow to infinity: the
+/// failure names the unknown, its node, and the cells, materials and zones around it.
+#[test]
+fn an_overflowing_residual_names_the_unknown_and_the_zone() {
+    let text = OVERFILLED
+        .replacen(
+            "[initial]",
+            r#"[[material]]
+name = "overflowing"
+zones = ["right_end"]
+young_modulus = 1e307
+poisson_ratio = 0.3
+partial_molar_volume = 1e-6
+free_energy = "lattice"
+max_concentration = 1000.0
+diffusivity = 1e-15
+
+[initial]"#,
+            1,
+        )
+        .replacen(
+            "[[material]]",
+            "[[body.zone]]\nname = \"right_end\"\nmin = [8e-5, 0.0]\nmax = [1e-4, 2e-5]\n\n[[material]]",
+            1,
+        );
+    let model = build_model(text, "overflowing.toml", Path::new(".")).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let err = run(
+        &model,
+        &RunOptions {
+            out: dir.path().to_path_buf(),
+            threads: Some(1),
+        },
+        &mut |_| {},
+    )
+    .unwrap_err();
+    let text = err.to_string();
+    println!("{text}");
+    assert!(matches!(err, RunError::Numerical(_)), "{text}");
+    assert!(text.contains("non-finite residual"), "{text}");
+    assert!(text.contains("material 'overflowing'"), "{text}");
+    assert!(text.contains("right_end"), "{text}");
+    assert!(text.contains("at node"), "{text}");
 }

@@ -54,6 +54,23 @@ enum Command {
         #[arg(long)]
         no_plot: bool,
     },
+    /// Continue a run from the newest checkpoint in its results folder (after a crash, Ctrl-C
+    /// or SIGTERM). The results are the same, to the last bit, as those of a run never
+    /// interrupted.
+    Resume {
+        /// The results directory of the run.
+        dir: PathBuf,
+        /// Continue even though the scenario file changed since the run started (the mesh and
+        /// the orders must not change).
+        #[arg(long)]
+        force: bool,
+        /// Worker threads for assembly and factorisation (default: all cores).
+        #[arg(long, value_name = "N")]
+        threads: Option<usize>,
+        /// Do not draw the history figures at the end.
+        #[arg(long)]
+        no_plot: bool,
+    },
     /// Run the built-in demonstration scenario: a spherical storage particle charged at
     /// constant current to half capacity, then resting (examples/charging_particle).
     Demo {
@@ -78,8 +95,12 @@ enum Command {
     },
 }
 
+/// Exit code of a run stopped by Ctrl-C or SIGTERM (128 + SIGINT, the shell convention).
+pub const EXIT_INTERRUPTED: u8 = 130;
+
 /// Entry point of the `dilata` binary. Exit code 0 on success; otherwise a one-line cause on
-/// standard error and exit code 1 (2 for command-line usage errors, from the parser).
+/// standard error and exit code 1 (2 for command-line usage errors, from the parser;
+/// [`EXIT_INTERRUPTED`] for a run stopped by a signal, with the command that continues it).
 pub fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
@@ -91,6 +112,12 @@ pub fn main() -> ExitCode {
             threads,
             no_plot,
         } => scenario_cmd::run(&file, out.as_deref(), threads, !no_plot),
+        Command::Resume {
+            dir,
+            force,
+            threads,
+            no_plot,
+        } => scenario_cmd::resume(&dir, force, threads, !no_plot),
         Command::Demo {
             out,
             threads,
@@ -111,7 +138,15 @@ pub fn main() -> ExitCode {
                 }
             }
             eprintln!("error: {line}");
-            ExitCode::FAILURE
+            let interrupted = matches!(
+                e.downcast_ref::<dilata_run::RunError>(),
+                Some(dilata_run::RunError::Interrupted { .. })
+            );
+            if interrupted {
+                ExitCode::from(EXIT_INTERRUPTED)
+            } else {
+                ExitCode::FAILURE
+            }
         }
     }
 }

@@ -1,14 +1,17 @@
-//! `dilata check`, `dilata run` and `dilata demo`: scenario files through the driver, with a
-//! progress line on simulated time.
+//! `dilata check`, `dilata run`, `dilata resume` and `dilata demo`: scenario files through the
+//! driver, with a progress line on simulated time; Ctrl-C and SIGTERM stop a run between two
+//! steps with a checkpoint.
 
 use std::io::{IsTerminal, Write};
 use std::path::Path;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
 use std::time::Instant;
 
 use anyhow::Context;
 use dilata_run::{
-    build_model, check_model, describe_stop, load_model, material_table, stop_target, Model,
-    Progress, RunError, RunOptions, RunSummary,
+    build_model, check_model, describe_stop, load_checkpoint, load_model, material_table,
+    scenario_hash, stop_target, Model, Progress, RunControl, RunError, RunOptions, RunSummary,
 };
 
 use dilata_io::json::Json;
@@ -80,26 +83,109 @@ pub fn run(
             Path::new("dilata-out").join(stem.as_ref())
         }
     };
-    run_model(&model, &out, threads)?;
+    run_model(&model, &out, threads, RunControl::default())?;
     if plot {
         crate::plot_cmd::after_run(&out)?;
     }
     Ok(())
 }
 
-fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Result<RunSummary> {
+/// `dilata resume DIR`: the newest checkpoint in `dir`, the scenario it was started from (or
+/// the copy in `dir` when that file is gone), refused when the scenario changed unless
+/// `force`; draws the history figures at the end when `plot` is set.
+pub fn resume(dir: &Path, force: bool, threads: Option<usize>, plot: bool) -> anyhow::Result<()> {
+    let (path, checkpoint) = load_checkpoint(dir)?;
+    let original = Path::new(&checkpoint.scenario_file);
+    let mut model = if !checkpoint.scenario_file.is_empty() && original.is_file() {
+        load_model(original)?
+    } else {
+        let copy = dir.join("scenario.toml");
+        let text = std::fs::read_to_string(&copy).map_err(|source| RunError::Read {
+            path: copy.clone(),
+            source,
+        })?;
+        let base = original.parent().unwrap_or(Path::new("."));
+        build_model(text, &copy.display().to_string(), base)?
+    };
+    if scenario_hash(&model.text) == checkpoint.scenario_hash {
+        // The same scenario: named as when the run started (summary.json stays identical).
+        model.file = checkpoint.scenario_name.clone();
+    } else {
+        if !force {
+            return Err(RunError::ScenarioChanged {
+                file: model.file.clone(),
+                out: dir.to_path_buf(),
+            }
+            .into());
+        }
+        eprintln!(
+            "warning: the scenario {} changed since the run started; continuing with it \
+             (--force)",
+            model.file
+        );
+    }
+    println!(
+        "resuming from {}: step {}, t = {:e} s, stage {}",
+        path.display(),
+        checkpoint.steps,
+        checkpoint.integrator.t,
+        checkpoint.stage + 1
+    );
+    let control = RunControl {
+        resume: Some(checkpoint),
+        interrupt: None,
+    };
+    run_model(&model, dir, threads, control)?;
+    if plot {
+        crate::plot_cmd::after_run(dir)?;
+    }
+    Ok(())
+}
+
+/// A flag set by the first Ctrl-C or SIGTERM; a second one ends the process at once. None
+/// when the handler cannot be installed (the run then simply cannot be stopped cleanly).
+fn interrupt_flag() -> Option<Arc<AtomicBool>> {
+    let flag = Arc::new(AtomicBool::new(false));
+    let seen = flag.clone();
+    let installed = ctrlc::set_handler(move || {
+        if seen.swap(true, Ordering::SeqCst) {
+            eprintln!("\nstopped at once; the newest checkpoint is older than this moment");
+            std::process::exit(i32::from(crate::EXIT_INTERRUPTED));
+        }
+        eprintln!(
+            "\nstopping after the current step with a checkpoint (press Ctrl-C again to stop at \
+             once)"
+        );
+    });
+    match installed {
+        Ok(()) => Some(flag),
+        Err(e) => {
+            eprintln!("warning: Ctrl-C will not stop the run cleanly: {e}");
+            None
+        }
+    }
+}
+
+fn run_model(
+    model: &Model,
+    out: &Path,
+    threads: Option<usize>,
+    mut control: RunControl,
+) -> anyhow::Result<RunSummary> {
     if threads == Some(0) {
         anyhow::bail!("--threads must be at least 1");
     }
     // `run` checks everything `check_model` does before it writes anything.
     describe(model);
+    control.interrupt = interrupt_flag();
     let mut bar = ProgressLine::new();
-    let summary = dilata_run::run(
+    let summary = dilata_run::run_with(
         model,
         &RunOptions {
             out: out.to_path_buf(),
             threads,
         },
+        &control,
         &mut |p| bar.update(p),
     );
     bar.finish();
@@ -133,6 +219,9 @@ fn run_model(model: &Model, out: &Path, threads: Option<usize>) -> anyhow::Resul
         "  mass balance: amount - initial - inflow = {:.3e} mol",
         r.balance_error
     );
+    if let Some(activity) = &summary.solver_activity {
+        println!("  {activity}");
+    }
     println!("  results in {}", out.display());
     println!("{CAUTION}");
     Ok(summary)
@@ -146,7 +235,7 @@ pub fn demo(out: &Path, threads: Option<usize>, plot: bool) -> anyhow::Result<()
         "built-in demo scenario",
         Path::new("."),
     )?;
-    let summary = run_model(&model, out, threads)?;
+    let summary = run_model(&model, out, threads, RunControl::default())?;
     if let Some((file, probes)) = &summary.last_snapshot {
         write_expectations(out, &model, file, probes)?;
     }

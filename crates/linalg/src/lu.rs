@@ -289,7 +289,11 @@ impl LinearSolver for FaerLu {
         match result {
             Ok(()) => {}
             Err(LuError::SymbolicSingular { index }) => {
-                return Err(LinalgError::Singular { pivot: Some(index) });
+                // faer counts columns of the column-permuted matrix (faer 0.24.4 source,
+                // sparse/linalg/lu.rs: column j is the input's column `fwd[j]`); report the
+                // input's index, a column of M = Aᵀ, i.e. an equation (row) of A.
+                let original = state.col_perm.fwd.get(index).copied();
+                return Err(LinalgError::Singular { pivot: original });
             }
             Err(LuError::Generic(e)) => {
                 return Err(LinalgError::Backend(format!("numeric LU failed: {e:?}")));
@@ -308,6 +312,34 @@ impl LinearSolver for FaerLu {
         self.scaled = scaled.values;
         probe?;
         self.factored = true;
+        Ok(())
+    }
+
+    /// The row scales followed by the column scales of the last equilibration (the warm start
+    /// of the next one); empty before the first factorisation.
+    fn carried_state(&self) -> Vec<f64> {
+        let mut s = self.row_scale.clone();
+        s.extend_from_slice(&self.col_scale);
+        s
+    }
+
+    fn restore_carried_state(&mut self, state: &[f64]) -> Result<(), LinalgError> {
+        let n = self
+            .state
+            .as_ref()
+            .ok_or_else(|| LinalgError::Usage("restore_carried_state before analyze".into()))?
+            .pattern
+            .n();
+        if !state.is_empty() && state.len() != 2 * n {
+            return Err(LinalgError::Usage(format!(
+                "carried LU state has {} values, expected 0 or {} (row and column scales)",
+                state.len(),
+                2 * n
+            )));
+        }
+        let (rows, cols) = state.split_at(state.len() / 2);
+        self.row_scale = rows.to_vec();
+        self.col_scale = cols.to_vec();
         Ok(())
     }
 

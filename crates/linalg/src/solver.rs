@@ -55,4 +55,16 @@ pub trait LinearSolver: Send {
     fn activity(&self) -> Option<String> {
         None
     }
+    /// Numbers a solver carries from one factorisation to the next that change its results
+    /// (the LU's warm-started equilibration scales), so that a checkpoint can save them and a
+    /// resumed run solve to the same bits. Default: nothing carried.
+    fn carried_state(&self) -> Vec<f64> {
+        Vec::new()
+    }
+    /// Restore what [`LinearSolver::carried_state`] returned, after `analyze` on the same
+    /// pattern. Default: nothing carried, the state is ignored.
+    fn restore_carried_state(&mut self, state: &[f64]) -> Result<(), LinalgError> {
+        let _ = state;
+        Ok(())
+    }
 }

@@ -218,6 +218,9 @@ pub struct SymmetricFormSolver {
     jac: Option<CsrMatrix>,
     lu: Option<FaerLu>,
     lu_factored: bool,
+    /// The transform and the values of `J` the current preconditioner was built from (its
+    /// inputs: the build is deterministic), kept for [`LinearSolver::carried_state`].
+    built_from: Option<(RowTransform, Vec<f64>)>,
     stats: SymmetricFormStats,
 }
 
@@ -238,6 +241,7 @@ impl SymmetricFormSolver {
             jac: None,
             lu: None,
             lu_factored: false,
+            built_from: None,
             stats: SymmetricFormStats::default(),
         }
     }
@@ -304,6 +308,13 @@ impl SymmetricFormSolver {
         self.stats.symmetric_factorizations += 1;
         self.preconditioner_ready = true;
         self.preconditioner_fresh = true;
+        match self.built_from.as_mut() {
+            Some((bt, bj)) => {
+                bt.clone_from(t);
+                bj.clone_from(&jac.values);
+            }
+            None => self.built_from = Some((t.clone(), jac.values.clone())),
+        }
         Ok(())
     }
 
@@ -442,6 +453,76 @@ impl LinearSolver for SymmetricFormSolver {
         self.a_hat = None;
         self.jac = None;
         self.prepare_structure()
+    }
+
+    /// What a later solve depends on besides the next matrix: whether a preconditioner is
+    /// kept, the GMRES count that decides its reuse, the transform and `J` it was built from
+    /// (it is rebuilt from them on restore, to the same bits), and the LU's carried state.
+    /// Layout: `[ready, last_iterations, n, target (n), scale (n), signs (n), m, J (m),
+    /// LU state...]`, with `n = m = 0` when no preconditioner is kept.
+    fn carried_state(&self) -> Vec<f64> {
+        let mut out = vec![
+            f64::from(u8::from(self.preconditioner_ready)),
+            self.last_iterations as f64,
+        ];
+        match (&self.built_from, self.preconditioner_ready) {
+            (Some((t, j)), true) => {
+                out.push(t.len() as f64);
+                out.extend(t.target.iter().map(|&v| v as f64));
+                out.extend_from_slice(&t.scale);
+                out.extend(t.signs.iter().map(|&v| f64::from(v)));
+                out.push(j.len() as f64);
+                out.extend_from_slice(j);
+            }
+            _ => out.extend([0.0, 0.0]),
+        }
+        if let Some(lu) = &self.lu {
+            out.extend(lu.carried_state());
+        }
+        out
+    }
+
+    fn restore_carried_state(&mut self, state: &[f64]) -> Result<(), LinalgError> {
+        if state.is_empty() {
+            return Ok(());
+        }
+        let bad = || LinalgError::Usage("carried symmetric-form state is malformed".into());
+        let take = |at: &mut usize, k: usize| -> Result<&[f64], LinalgError> {
+            let part = state.get(*at..*at + k).ok_or_else(bad)?;
+            *at += k;
+            Ok(part)
+        };
+        let mut at = 0;
+        let head = take(&mut at, 3)?;
+        let (ready, last_iterations, n) = (head[0] != 0.0, head[1] as usize, head[2] as usize);
+        let target: Vec<usize> = take(&mut at, n)?.iter().map(|&v| v as usize).collect();
+        let scale = take(&mut at, n)?.to_vec();
+        let signs: Vec<i8> = take(&mut at, n)?.iter().map(|&v| v as i8).collect();
+        let m = take(&mut at, 1)?[0] as usize;
+        let values = take(&mut at, m)?.to_vec();
+        let lu_state = &state[at..];
+        if ready {
+            let pattern = self.pattern.clone().ok_or_else(bad)?;
+            if values.len() != pattern.nnz() {
+                return Err(bad());
+            }
+            self.set_row_transform(RowTransform {
+                target,
+                scale,
+                signs,
+            })?;
+            self.jac = Some(CsrMatrix { pattern, values });
+            self.build_preconditioner()?;
+        }
+        self.last_iterations = last_iterations;
+        if !lu_state.is_empty() {
+            let pattern = self.pattern.as_ref().ok_or_else(bad)?;
+            let mut lu = FaerLu::new(self.direct_params());
+            lu.analyze(pattern)?;
+            lu.restore_carried_state(lu_state)?;
+            self.lu = Some(lu);
+        }
+        Ok(())
     }
 
     fn set_row_transform(&mut self, transform: RowTransform) -> Result<(), LinalgError> {

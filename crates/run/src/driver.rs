@@ -1,30 +1,36 @@
 //! The time loop of a scenario: stages in order, steps with the adaptive integrator, stop
-//! events located in time, a history row every step, field snapshots at output times.
+//! events located in time, a history row every step, field snapshots at output times,
+//! checkpoints between steps (at intervals, on request, and when a run stalls), and resuming
+//! from one.
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
+use std::sync::atomic::{AtomicBool, Ordering as AtomicOrdering};
+use std::sync::Arc;
 use std::time::Instant;
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Constraints, FieldSpec, GeometryMode, Parallelism};
-use dilata_io::json::Json;
-use dilata_io::scenario::{LinearSolverName, RigidModes, SchemeName, StopRule};
+use dilata_io::scenario::{LinearSolverName, RigidModes, SchemeName, DEFAULT_CHECKPOINT_WALL};
 use dilata_io::{write_atomic, PvdWriter};
 use dilata_linalg::{build_solver_with, LinearSolver, Ordering, SolverConfig, SolverKind};
 use dilata_material::elastic::{hydrostatic, max_principal, von_mises};
 use dilata_physics::coupled::CoupledFields;
-use dilata_physics::coupled_post::{
-    boundary_mean, coupled_integrals, recover_coupled_nodal, BoundaryField, CoupledPost,
-};
+use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal, CoupledPost};
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::supports::{pin_rigid_modes, rigid_modes_left, RigidBody};
 use dilata_solve::time::{
-    AdaptiveParams, Integrator, IntegratorParams, RateRule, Scheme, StepSizing,
+    AdaptiveParams, Integrator, IntegratorParams, IntegratorState, RateRule, Scheme, StepSizing,
 };
 use dilata_solve::{newton, NewtonParams, TransientSystem};
 
+use crate::checkpoint::{scenario_hash, Checkpoint};
 use crate::model::Model;
 use crate::program::{build_stage_setup, ConditionKind, StagePlan};
-use crate::record::{nodal_field, write_snapshot, History, HistoryRow, Probe, RunLog, Snapshot};
+use crate::record::{nodal_field, write_snapshot, HistoryRow, Probe, Snapshot};
+use crate::report::{describe_stop, explain_failure, stop_quantity, stop_target, write_summary};
+use crate::resume::{
+    check_resumable, create_files, reopen_files, save_checkpoint, scenario_origin,
+};
 use crate::RunError;
 
 /// Newton steps below this fraction of a field's magnitude (or its scale: body size, RT) end
@@ -77,6 +83,10 @@ pub struct StageOutcome {
 /// What a finished run reports (also written to `summary.json`).
 #[derive(Clone, Debug, PartialEq)]
 pub struct RunSummary {
+    /// What the linear solver did in this session (factorisations, iterations, fallbacks), for
+    /// the terminal; not written to any result file, since a resumed run counts only its own
+    /// session.
+    pub solver_activity: Option<String>,
     pub steps: usize,
     pub rejected: usize,
     pub wall_seconds: f64,
@@ -178,15 +188,41 @@ pub fn check_model(model: &Model) -> Result<(), RunError> {
     plan_pins(model, &dofs, fields).map(|_| ())
 }
 
+/// Extra control of a run: continuing from a checkpoint, and stopping on request.
+#[derive(Clone, Debug, Default)]
+pub struct RunControl {
+    /// Continue from this checkpoint (see [`crate::load_checkpoint`]) instead of starting at
+    /// t = 0. The results folder must be the one the checkpoint belongs to.
+    pub resume: Option<Checkpoint>,
+    /// When set (by a signal handler, say), the run stops before its next step: it writes a
+    /// checkpoint and a snapshot of the current state and returns [`RunError::Interrupted`].
+    pub interrupt: Option<Arc<AtomicBool>>,
+}
+
 /// Run `model`, writing results to `options.out`.
 pub fn run(
     model: &Model,
     options: &RunOptions,
     progress: &mut dyn FnMut(&Progress<'_>),
 ) -> Result<RunSummary, RunError> {
+    run_with(model, options, &RunControl::default(), progress)
+}
+
+/// Run `model` as [`run`] does, or continue it from a checkpoint, writing checkpoints at the
+/// intervals of the scenario's `[output]` section and stopping early on `control.interrupt`.
+pub fn run_with(
+    model: &Model,
+    options: &RunOptions,
+    control: &RunControl,
+    progress: &mut dyn FnMut(&Progress<'_>),
+) -> Result<RunSummary, RunError> {
     let wall = Instant::now();
     let (dofs, fields) = build_dofs(model);
     let pins = plan_pins(model, &dofs, fields)?;
+    let n = dofs.n_dofs();
+    if let Some(c) = &control.resume {
+        check_resumable(model, c, n)?;
+    }
     // Outputs: the folder must be writable before anything is computed.
     let out = &options.out;
     std::fs::create_dir_all(out).map_err(|source| {
@@ -197,13 +233,13 @@ pub fn run(
         })
     })?;
     write_atomic(&out.join("scenario.toml"), model.text.as_bytes())?;
-    let mut history = History::create(&out.join("history.csv"))?;
-    let mut log = RunLog::create(&out.join("run.log"))?;
-    let mut pvd = PvdWriter::new(&out.join("fields.pvd"));
+    let mut files = match &control.resume {
+        None => create_files(out)?,
+        Some(c) => reopen_files(out, c)?,
+    };
 
     let par = parallelism(options.threads);
     let mesh = &model.mesh;
-    let n = dofs.n_dofs();
     let mut problem = CoupledProblem::new(mesh, dofs, fields, model.mode, model.laws.clone(), par);
     // With the LU, factorising the coupled Jacobian costs far more than a residual, so Newton
     // keeps a factorisation while it converges fast (chord steps). The symmetric-form solver
@@ -219,14 +255,378 @@ pub fn run(
         .analyze(problem.assembler.pattern())
         .map_err(|e| RunError::Numerical(format!("linear solver analysis: {e}")))?;
 
-    // Initial state: c as given, u and μ in equilibrium with it.
-    let mut x0 = vec![0.0; n];
-    for node in problem.dofs.field_nodes(fields.c) {
-        let d = problem.dofs.node_dof(fields.c, node, 0).expect("c node");
-        x0[d] = model.initial_c[node];
-    }
-    initial_equilibrium(model, &mut problem, solver.as_mut(), &mut x0, &pins[0])?;
+    // Output times.
+    let every = model.scenario.output.every;
+    let mut extra: Vec<f64> = model.scenario.output.times.clone();
+    extra.sort_by(f64::total_cmp);
+    let next_output = |t: f64| -> f64 {
+        let mut next = f64::INFINITY;
+        if let Some(e) = every {
+            let k = (t / e * (1.0 + 1e-12)).floor() + 1.0;
+            next = next.min(k * e);
+        }
+        if let Some(&x) = extra.iter().find(|&&x| x > t * (1.0 + 1e-12) + 1e-300) {
+            next = next.min(x);
+        }
+        next
+    };
 
+    let post = |problem: &CoupledProblem<'_>, x: &[f64]| -> Result<Derived, RunError> {
+        derive(model, problem, x)
+    };
+    let snapshot = |problem: &CoupledProblem<'_>,
+                    x: &[f64],
+                    d: &Derived,
+                    t: f64,
+                    pvd: &mut PvdWriter,
+                    last: &mut Option<(String, Vec<Probe>)>|
+     -> Result<(), RunError> {
+        if !model.scenario.output.fields {
+            return Ok(());
+        }
+        *last = Some(write_snapshot(
+            out,
+            pvd.entries().len(),
+            t,
+            mesh,
+            Snapshot {
+                u: nodal_field(mesh, &problem.dofs, fields.u, x),
+                c: nodal_field(mesh, &problem.dofs, fields.c, x),
+                mu: nodal_field(mesh, &problem.dofs, fields.mu, x),
+                stress: &d.stress,
+                flux: &d.flux,
+                material: model.laws.law_of_cell(),
+            },
+            pvd,
+        )?);
+        Ok(())
+    };
+
+    // The loop state: fresh (initial equilibrium, row 0, first snapshot) or from the checkpoint.
+    let resuming = control.resume.is_some();
+    let mut st = match &control.resume {
+        Some(c) => {
+            let mut st = c.clone();
+            st.session += 1;
+            st
+        }
+        None => {
+            let mut x0 = vec![0.0; n];
+            for node in problem.dofs.field_nodes(fields.c) {
+                let d = problem.dofs.node_dof(fields.c, node, 0).expect("c node");
+                x0[d] = model.initial_c[node];
+            }
+            initial_equilibrium(model, &mut problem, solver.as_mut(), &mut x0, &pins[0])?;
+            let d0 = post(&problem, &x0)?;
+            let mut row0 = d0.row.clone();
+            row0.stage = model.stages[0].name.clone();
+            files.history.append(&row0)?;
+            files
+                .timing
+                .append(0, 0.0, wall.elapsed().as_secs_f64(), 0)?;
+            let mut last_snapshot = None;
+            snapshot(&problem, &x0, &d0, 0.0, &mut files.pvd, &mut last_snapshot)?;
+            Checkpoint {
+                scenario_hash: 0,
+                scenario_file: String::new(),
+                scenario_name: String::new(),
+                n_dofs: n,
+                stage: 0,
+                stage_start: 0.0,
+                stop_value: None,
+                integrator: IntegratorState {
+                    t: 0.0,
+                    x: x0,
+                    past: Vec::new(),
+                    dt_next: 0.0,
+                    n_accepted: 0,
+                    n_rejected: 0,
+                },
+                solver_state: Vec::new(),
+                inflow: (0.0, 0.0),
+                steps: 0,
+                amount0: d0.row.amount,
+                max_hydrostatic: (row0.peak_hydrostatic, 0.0),
+                max_principal: (row0.peak_principal, 0.0),
+                last_row: row0,
+                outcomes: Vec::new(),
+                snapshots: Vec::new(),
+                last_snapshot,
+                history_bytes: 0,
+                log_bytes: 0,
+                timing_bytes: 0,
+                wall_seconds: 0.0,
+                session: 0,
+            }
+        }
+    };
+    st.scenario_hash = scenario_hash(&model.text);
+    st.scenario_file = scenario_origin(model);
+    st.scenario_name = model.file.clone();
+    let wall_before = st.wall_seconds;
+    let wall_now = || wall_before + wall.elapsed().as_secs_f64();
+    let mut integrator = Integrator::new(build_integrator_params(model), 0.0, Vec::new());
+    if resuming {
+        solver
+            .restore_carried_state(&st.solver_state)
+            .map_err(|e| RunError::Resume(format!("linear solver state: {e}")))?;
+        integrator.state = std::mem::replace(&mut st.integrator, integrator.state.clone());
+    } else {
+        integrator.state.x = std::mem::take(&mut st.integrator.x);
+    }
+    let checkpoint_every = model.scenario.output.checkpoint_every;
+    let checkpoint_wall = model
+        .scenario
+        .output
+        .checkpoint_wall
+        .unwrap_or(DEFAULT_CHECKPOINT_WALL);
+    let mut last_checkpoint = Instant::now();
+    let mut checkpoint_due = false;
+
+    let first_stage = st.stage;
+    for si in first_stage..model.stages.len() {
+        let plan = &model.stages[si];
+        let t_stage = st.stage_start;
+        let setup = build_stage_setup(plan, mesh, &problem.dofs, fields, t_stage, &pins[si]);
+        problem.constraints = setup.constraints;
+        problem.loads = setup.loads;
+        problem.boundary_update = Some(setup.update);
+        problem
+            .check_setup()
+            .map_err(|e| RunError::Numerical(format!("stage '{}': {e}", plan.name)))?;
+        if !(resuming && si == first_stage) {
+            st.stage = si;
+            // Restart the multistep history at a stage change (the loads may jump).
+            integrator.state.past.clear();
+            st.stop_value = match &plan.stop {
+                Some(rule) => Some(stop_quantity(
+                    rule,
+                    model,
+                    &problem,
+                    &integrator.state.x,
+                    &st.last_row,
+                )?),
+                None => None,
+            };
+        }
+        let t_end = t_stage + plan.duration;
+        let mut reason = "duration".to_string();
+        'steps: while integrator.state.t < t_end * (1.0 - 1e-14) {
+            // Between two steps: checkpoint when due or asked to stop.
+            let interrupted = control
+                .interrupt
+                .as_ref()
+                .is_some_and(|f| f.load(AtomicOrdering::SeqCst));
+            if interrupted
+                || checkpoint_due
+                || last_checkpoint.elapsed().as_secs_f64() >= checkpoint_wall
+            {
+                let path = save_checkpoint(
+                    out,
+                    &mut st,
+                    &files,
+                    &integrator.state,
+                    solver.as_ref(),
+                    wall_now(),
+                )?;
+                checkpoint_due = false;
+                last_checkpoint = Instant::now();
+                if interrupted {
+                    let x = &integrator.state.x;
+                    let t = integrator.state.t;
+                    if files.pvd.entries().last().is_none_or(|e| e.0 != t) {
+                        let d = post(&problem, x)?;
+                        snapshot(&problem, x, &d, t, &mut files.pvd, &mut st.last_snapshot)?;
+                    }
+                    files.log.note(&format!(
+                        "interrupted at step {} (t = {t:e} s); checkpoint {}",
+                        st.steps,
+                        path.display()
+                    ))?;
+                    return Err(RunError::Interrupted {
+                        time: t,
+                        out: out.clone(),
+                    });
+                }
+            }
+            let t_out = next_output(integrator.state.t);
+            let mut t_stop = t_end.min(t_out);
+            let saved = (integrator.state.clone(), st.inflow);
+            let mut tries = 0;
+            loop {
+                let report = match integrator.step(&mut problem, solver.as_mut(), t_stop) {
+                    Ok(r) => r,
+                    Err(e) => {
+                        // Keep the last good state: snapshot, checkpoint (a resume with a
+                        // changed scenario can go on from it), and the cause in the log.
+                        let x = &integrator.state.x;
+                        let d = post(&problem, x)?;
+                        snapshot(
+                            &problem,
+                            x,
+                            &d,
+                            integrator.state.t,
+                            &mut files.pvd,
+                            &mut st.last_snapshot,
+                        )?;
+                        let path = save_checkpoint(
+                            out,
+                            &mut st,
+                            &files,
+                            &integrator.state,
+                            solver.as_ref(),
+                            wall_now(),
+                        )?;
+                        let message = explain_failure(model, &e.to_string());
+                        files.log.note(&format!(
+                            "stage '{}' stopped: {message}; last good state in checkpoint {}",
+                            plan.name,
+                            path.display()
+                        ))?;
+                        return Err(RunError::Stalled {
+                            stage: plan.name.clone(),
+                            time: integrator.state.t,
+                            message,
+                            out: out.clone(),
+                        });
+                    }
+                };
+                for cause in &report.rejections {
+                    files.log.note(&format!(
+                        "stage '{}': a step from t = {:e} s was rejected and retried \
+                         smaller: {cause}",
+                        plan.name, saved.0.t
+                    ))?;
+                }
+                let x = integrator.state.x.clone();
+                let rates = problem
+                    .mass_rates(&x)
+                    .map_err(|e| RunError::Numerical(format!("mass balance: {e}")))?;
+                let r = rates.supplied + rates.reaction;
+                let new_inflow = integrate_rate(&report.rate, st.inflow, r);
+                let mut d = post(&problem, &x)?;
+                // Stop event: locate the crossing in time by retaking the step.
+                if let (Some(rule), Some(before)) = (&plan.stop, st.stop_value) {
+                    let now = stop_quantity(rule, model, &problem, &x, &d.row)?;
+                    let target = stop_target(rule);
+                    if (before - target) * (now - target) <= 0.0 && before != target {
+                        let frac = (target - before) / (now - before);
+                        let close = (now - target).abs() <= 1e-6 * target.abs().max(1e-300);
+                        if !close && tries < 6 && frac < 0.999 {
+                            let t0 = saved.0.t;
+                            let t_cross = t0 + frac.max(1e-3) * (report.t - t0);
+                            (integrator.state, st.inflow) = saved.clone();
+                            t_stop = t_cross;
+                            tries += 1;
+                            continue;
+                        }
+                        reason = format!(
+                            "{} reached {:e} (value {:e})",
+                            describe_stop(rule),
+                            target,
+                            now
+                        );
+                        st.stop_value = None;
+                        // Retakes end with a short step; the next stage starts from the step
+                        // size proposed before the crossing.
+                        integrator.state.dt_next = integrator.state.dt_next.max(saved.0.dt_next);
+                    } else {
+                        st.stop_value = Some(now);
+                    }
+                }
+                st.steps += 1;
+                let steps = st.steps;
+                st.inflow = (st.inflow.1, new_inflow);
+                d.row.time = report.t;
+                d.row.step = steps;
+                d.row.stage = plan.name.clone();
+                d.row.dt = report.dt;
+                d.row.newton_iterations = report.newton.iterations;
+                d.row.factorizations = report.newton.factorizations;
+                d.row.rejected = report.rejections.len();
+                d.row.inflow = new_inflow;
+                d.row.balance_error = d.row.amount - st.amount0 - new_inflow;
+                files.history.append(&d.row)?;
+                files
+                    .timing
+                    .append(steps, report.t, wall_now(), st.session)?;
+                if d.row.peak_hydrostatic > st.max_hydrostatic.0 {
+                    st.max_hydrostatic = (d.row.peak_hydrostatic, report.t);
+                }
+                if d.row.peak_principal > st.max_principal.0 {
+                    st.max_principal = (d.row.peak_principal, report.t);
+                }
+                let hit_output = (report.t - t_out).abs() <= 1e-12 * t_out.abs().max(1.0);
+                let ends = reason != "duration" || report.t >= t_end * (1.0 - 1e-14);
+                if hit_output || ends {
+                    snapshot(
+                        &problem,
+                        &x,
+                        &d,
+                        report.t,
+                        &mut files.pvd,
+                        &mut st.last_snapshot,
+                    )?;
+                }
+                if let Some(e) = checkpoint_every {
+                    checkpoint_due |= (report.t / e).floor() > (saved.0.t / e).floor();
+                }
+                st.last_row = d.row;
+                progress(&Progress {
+                    stage: &plan.name,
+                    stage_index: si,
+                    n_stages: model.stages.len(),
+                    time: report.t,
+                    stage_end: t_end,
+                    program_start: 0.0,
+                    program_end: t_end
+                        + model.stages[si + 1..]
+                            .iter()
+                            .map(|s| s.duration)
+                            .sum::<f64>(),
+                    dt: report.dt,
+                    newton_iterations: report.newton.iterations,
+                    steps,
+                    rejected: integrator.state.n_rejected,
+                    wall_seconds: wall_now(),
+                });
+                if reason != "duration" {
+                    break 'steps;
+                }
+                break;
+            }
+        }
+        st.outcomes.push(StageOutcome {
+            name: plan.name.clone(),
+            start: t_stage,
+            end: integrator.state.t,
+            reason,
+        });
+        st.stage_start = integrator.state.t;
+    }
+    let summary = RunSummary {
+        solver_activity: solver
+            .activity()
+            .map(|a| format!("linear solver {}: {a}", solver.name())),
+        steps: st.steps,
+        rejected: integrator.state.n_rejected,
+        wall_seconds: wall_now(),
+        final_time: integrator.state.t,
+        stages: st.outcomes,
+        final_row: st.last_row,
+        max_hydrostatic: st.max_hydrostatic,
+        max_principal: st.max_principal,
+        n_dofs: n,
+        snapshots: files.pvd.entries().len(),
+        last_snapshot: st.last_snapshot,
+        final_solution: std::mem::take(&mut integrator.state.x),
+    };
+    write_summary(&out.join("summary.json"), model, &summary)?;
+    Ok(summary)
+}
+
+/// Integrator parameters from the scenario's `[time]` and `[solver]` sections.
+fn build_integrator_params(model: &Model) -> IntegratorParams {
     let time = &model.scenario.time;
     let total: f64 = model.stages.iter().map(|s| s.duration).sum();
     let c_scale = model.initial_c.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
@@ -255,7 +655,7 @@ pub fn run(
             max_growth: 2.0,
         }),
     };
-    let params = IntegratorParams {
+    IntegratorParams {
         scheme: match time.scheme {
             SchemeName::BackwardEuler => Scheme::BackwardEuler,
             SchemeName::Bdf2 => Scheme::Bdf2,
@@ -264,236 +664,7 @@ pub fn run(
         newton: newton_params,
         cut_factor: 0.25,
         dt_min: min_step,
-    };
-    let mut integrator = Integrator::new(params, 0.0, x0);
-
-    // Output times.
-    let every = model.scenario.output.every;
-    let mut extra: Vec<f64> = model.scenario.output.times.clone();
-    extra.sort_by(f64::total_cmp);
-    let next_output = |t: f64| -> f64 {
-        let mut next = f64::INFINITY;
-        if let Some(e) = every {
-            let k = (t / e * (1.0 + 1e-12)).floor() + 1.0;
-            next = next.min(k * e);
-        }
-        if let Some(&x) = extra.iter().find(|&&x| x > t * (1.0 + 1e-12) + 1e-300) {
-            next = next.min(x);
-        }
-        next
-    };
-
-    let post = |problem: &CoupledProblem<'_>, x: &[f64]| -> Result<Derived, RunError> {
-        derive(model, problem, x)
-    };
-    let mut snapshots = 0usize;
-    let mut last_snapshot = None;
-    let mut snapshot = |problem: &CoupledProblem<'_>,
-                        x: &[f64],
-                        d: &Derived,
-                        t: f64,
-                        pvd: &mut PvdWriter|
-     -> Result<(), RunError> {
-        if !model.scenario.output.fields {
-            return Ok(());
-        }
-        last_snapshot = Some(write_snapshot(
-            out,
-            snapshots,
-            t,
-            mesh,
-            Snapshot {
-                u: nodal_field(mesh, &problem.dofs, fields.u, x),
-                c: nodal_field(mesh, &problem.dofs, fields.c, x),
-                mu: nodal_field(mesh, &problem.dofs, fields.mu, x),
-                stress: &d.stress,
-                flux: &d.flux,
-                material: model.laws.law_of_cell(),
-            },
-            pvd,
-        )?);
-        snapshots += 1;
-        Ok(())
-    };
-
-    let d0 = post(&problem, &integrator.state.x)?;
-    let amount0 = d0.row.amount;
-    let mut row0 = d0.row.clone();
-    row0.stage = model.stages[0].name.clone();
-    history.append(&row0)?;
-    snapshot(&problem, &integrator.state.x, &d0, 0.0, &mut pvd)?;
-    let mut max_h = (row0.peak_hydrostatic, 0.0);
-    let mut max_p = (row0.peak_principal, 0.0);
-    let mut last_row = row0;
-
-    // Integrated inflow follows the integrator's own rate rule: I_{n−1}, I_n.
-    let mut inflow = (0.0, 0.0);
-    let mut steps = 0usize;
-    let mut outcomes = Vec::new();
-    let mut t_stage = 0.0;
-    for (si, plan) in model.stages.iter().enumerate() {
-        let setup = build_stage_setup(plan, mesh, &problem.dofs, fields, t_stage, &pins[si]);
-        problem.constraints = setup.constraints;
-        problem.loads = setup.loads;
-        problem.boundary_update = Some(setup.update);
-        problem
-            .check_setup()
-            .map_err(|e| RunError::Numerical(format!("stage '{}': {e}", plan.name)))?;
-        // Restart the multistep history at a stage change (the loads may jump).
-        integrator.state.past.clear();
-        let t_end = t_stage + plan.duration;
-        let mut reason = "duration".to_string();
-        let mut stop_value = match &plan.stop {
-            Some(rule) => Some(stop_quantity(
-                rule,
-                model,
-                &problem,
-                &integrator.state.x,
-                &last_row,
-            )?),
-            None => None,
-        };
-        'steps: while integrator.state.t < t_end * (1.0 - 1e-14) {
-            let t_out = next_output(integrator.state.t);
-            let mut t_stop = t_end.min(t_out);
-            let saved = (integrator.state.clone(), inflow);
-            let mut tries = 0;
-            loop {
-                let report = match integrator.step(&mut problem, solver.as_mut(), t_stop) {
-                    Ok(r) => r,
-                    Err(e) => {
-                        let x = &integrator.state.x;
-                        let d = post(&problem, x)?;
-                        snapshot(&problem, x, &d, integrator.state.t, &mut pvd)?;
-                        let message = explain_failure(model, &e.to_string());
-                        log.note(&format!("stage '{}' stopped: {message}", plan.name))?;
-                        return Err(RunError::Stalled {
-                            stage: plan.name.clone(),
-                            time: integrator.state.t,
-                            message,
-                            out: out.clone(),
-                        });
-                    }
-                };
-                for cause in &report.rejections {
-                    log.note(&format!(
-                        "stage '{}': a step from t = {:e} s was rejected and retried \
-                         smaller: {cause}",
-                        plan.name, saved.0.t
-                    ))?;
-                }
-                let x = integrator.state.x.clone();
-                let rates = problem
-                    .mass_rates(&x)
-                    .map_err(|e| RunError::Numerical(format!("mass balance: {e}")))?;
-                let r = rates.supplied + rates.reaction;
-                let new_inflow = integrate_rate(&report.rate, inflow, r);
-                let mut d = post(&problem, &x)?;
-                // Stop event: locate the crossing in time by retaking the step.
-                if let (Some(rule), Some(before)) = (&plan.stop, stop_value) {
-                    let now = stop_quantity(rule, model, &problem, &x, &d.row)?;
-                    let target = stop_target(rule);
-                    if (before - target) * (now - target) <= 0.0 && before != target {
-                        let frac = (target - before) / (now - before);
-                        let close = (now - target).abs() <= 1e-6 * target.abs().max(1e-300);
-                        if !close && tries < 6 && frac < 0.999 {
-                            let t0 = saved.0.t;
-                            let t_cross = t0 + frac.max(1e-3) * (report.t - t0);
-                            (integrator.state, inflow) = saved.clone();
-                            t_stop = t_cross;
-                            tries += 1;
-                            continue;
-                        }
-                        reason = format!(
-                            "{} reached {:e} (value {:e})",
-                            describe_stop(rule),
-                            target,
-                            now
-                        );
-                        stop_value = None;
-                        // Retakes end with a short step; the next stage starts from the step
-                        // size proposed before the crossing.
-                        integrator.state.dt_next = integrator.state.dt_next.max(saved.0.dt_next);
-                    } else {
-                        stop_value = Some(now);
-                    }
-                }
-                steps += 1;
-                inflow = (inflow.1, new_inflow);
-                d.row.time = report.t;
-                d.row.step = steps;
-                d.row.stage = plan.name.clone();
-                d.row.dt = report.dt;
-                d.row.newton_iterations = report.newton.iterations;
-                d.row.factorizations = report.newton.factorizations;
-                d.row.rejected = report.rejections.len();
-                d.row.inflow = new_inflow;
-                d.row.balance_error = d.row.amount - amount0 - new_inflow;
-                d.row.wall = wall.elapsed().as_secs_f64();
-                history.append(&d.row)?;
-                if d.row.peak_hydrostatic > max_h.0 {
-                    max_h = (d.row.peak_hydrostatic, report.t);
-                }
-                if d.row.peak_principal > max_p.0 {
-                    max_p = (d.row.peak_principal, report.t);
-                }
-                let hit_output = (report.t - t_out).abs() <= 1e-12 * t_out.abs().max(1.0);
-                let ends = reason != "duration" || report.t >= t_end * (1.0 - 1e-14);
-                if hit_output || ends {
-                    snapshot(&problem, &x, &d, report.t, &mut pvd)?;
-                }
-                last_row = d.row;
-                progress(&Progress {
-                    stage: &plan.name,
-                    stage_index: si,
-                    n_stages: model.stages.len(),
-                    time: report.t,
-                    stage_end: t_end,
-                    program_start: 0.0,
-                    program_end: t_end
-                        + model.stages[si + 1..]
-                            .iter()
-                            .map(|s| s.duration)
-                            .sum::<f64>(),
-                    dt: report.dt,
-                    newton_iterations: report.newton.iterations,
-                    steps,
-                    rejected: integrator.state.n_rejected,
-                    wall_seconds: wall.elapsed().as_secs_f64(),
-                });
-                if reason != "duration" {
-                    break 'steps;
-                }
-                break;
-            }
-        }
-        outcomes.push(StageOutcome {
-            name: plan.name.clone(),
-            start: t_stage,
-            end: integrator.state.t,
-            reason,
-        });
-        t_stage = integrator.state.t;
     }
-    if let Some(activity) = solver.activity() {
-        log.note(&format!("linear solver {}: {activity}", solver.name()))?;
-    }
-    let summary = RunSummary {
-        steps,
-        rejected: integrator.state.n_rejected,
-        wall_seconds: wall.elapsed().as_secs_f64(),
-        final_time: integrator.state.t,
-        stages: outcomes,
-        final_row: last_row,
-        max_hydrostatic: max_h,
-        max_principal: max_p,
-        n_dofs: n,
-        snapshots,
-        last_snapshot,
-        final_solution: std::mem::take(&mut integrator.state.x),
-    };
-    write_summary(&out.join("summary.json"), model, &summary)?;
-    Ok(summary)
 }
 
 /// The symmetric-form solver or the direct LU (AMD in 2D, nested dissection in 3D), or GMRES
@@ -615,147 +786,4 @@ fn derive(model: &Model, problem: &CoupledProblem<'_>, x: &[f64]) -> Result<Deri
 fn integrate_rate(rule: &RateRule, inflow: (f64, f64), rate: f64) -> f64 {
     let (i_prev, i_n) = inflow;
     (rate - rule.a1 * i_n - rule.a2 * i_prev) / rule.a0
-}
-
-/// The value a stop rule waits for.
-pub fn stop_target(rule: &StopRule) -> f64 {
-    match rule {
-        StopRule::MeanConcentration { value }
-        | StopRule::BoundaryConcentration { value, .. }
-        | StopRule::PeakHydrostaticStress { value } => *value,
-    }
-}
-
-/// The quantity a stop rule watches, in words ("mean concentration on 'outer'").
-pub fn describe_stop(rule: &StopRule) -> String {
-    match rule {
-        StopRule::MeanConcentration { .. } => "mean concentration".into(),
-        StopRule::BoundaryConcentration { on, .. } => format!("mean concentration on '{on}'"),
-        StopRule::PeakHydrostaticStress { .. } => "peak hydrostatic stress".into(),
-    }
-}
-
-fn stop_quantity(
-    rule: &StopRule,
-    model: &Model,
-    problem: &CoupledProblem<'_>,
-    x: &[f64],
-    row: &HistoryRow,
-) -> Result<f64, RunError> {
-    Ok(match rule {
-        StopRule::MeanConcentration { .. } => row.c_mean,
-        StopRule::PeakHydrostaticStress { .. } => row.peak_hydrostatic,
-        StopRule::BoundaryConcentration { on, .. } => boundary_mean(
-            &model.mesh,
-            &BoundaryField {
-                dofs: &problem.dofs,
-                field: problem.fields.c,
-                component: 0,
-                mode: model.mode,
-                solution: x,
-            },
-            model.mesh.boundary(on).expect("checked with the scenario"),
-        )
-        .map_err(|e| RunError::Numerical(format!("stop rule on '{on}': {e}")))?,
-    })
-}
-
-/// Add the zone and material of a cell named in a failure message.
-fn explain_failure(model: &Model, message: &str) -> String {
-    let Some(pos) = message.find("cell ") else {
-        return message.to_string();
-    };
-    let digits: String = message[pos + 5..]
-        .chars()
-        .take_while(char::is_ascii_digit)
-        .collect();
-    let Ok(cell) = digits.parse::<usize>() else {
-        return message.to_string();
-    };
-    if cell >= model.mesh.n_cells() {
-        return message.to_string();
-    }
-    let zones: Vec<&str> = model
-        .mesh
-        .regions
-        .iter()
-        .filter(|(_, cells)| cells.binary_search(&cell).is_ok())
-        .map(|(name, _)| name.as_str())
-        .collect();
-    let material = &model.material_names[model.laws.law_of_cell()[cell] as usize];
-    let centroid = {
-        let nodes = model.mesh.cell(cell).1;
-        let mut c = [0.0; 3];
-        for &n in nodes {
-            for d in 0..3 {
-                c[d] += model.mesh.points[n][d] / nodes.len() as f64;
-            }
-        }
-        c
-    };
-    format!(
-        "{message} [cell {cell}: material '{material}', zones [{}], centroid ({:e}, {:e}, {:e})]",
-        zones.join(", "),
-        centroid[0],
-        centroid[1],
-        centroid[2]
-    )
-}
-
-fn write_summary(path: &Path, model: &Model, s: &RunSummary) -> Result<(), RunError> {
-    let text = |v: &str| Json::Str(v.to_string());
-    let count = |n: usize| Json::Int(n as i64);
-    let stages = s
-        .stages
-        .iter()
-        .map(|o| {
-            Json::Obj(vec![
-                ("name".into(), text(&o.name)),
-                ("start_s".into(), Json::Num(o.start)),
-                ("end_s".into(), Json::Num(o.end)),
-                ("ended_by".into(), text(&o.reason)),
-            ])
-        })
-        .collect();
-    let r = &s.final_row;
-    let entries: Vec<(&str, Json)> = vec![
-        ("program", text("dilata")),
-        ("version", text(env!("CARGO_PKG_VERSION"))),
-        ("title", text(&model.scenario.title)),
-        ("scenario", text(&model.file)),
-        ("dofs", count(s.n_dofs)),
-        ("steps", count(s.steps)),
-        ("rejected_attempts", count(s.rejected)),
-        ("snapshots", count(s.snapshots)),
-        ("wall_s", Json::Num(s.wall_seconds)),
-        ("final_time_s", Json::Num(s.final_time)),
-        ("final_amount_mol", Json::Num(r.amount)),
-        ("final_c_mean", Json::Num(r.c_mean)),
-        ("final_c_min", Json::Num(r.c_min)),
-        ("final_c_max", Json::Num(r.c_max)),
-        ("final_balance_error_mol", Json::Num(r.balance_error)),
-        ("max_hydrostatic_stress_pa", Json::Num(s.max_hydrostatic.0)),
-        (
-            "max_hydrostatic_stress_time_s",
-            Json::Num(s.max_hydrostatic.1),
-        ),
-        ("max_principal_stress_pa", Json::Num(s.max_principal.0)),
-        ("max_principal_stress_time_s", Json::Num(s.max_principal.1)),
-        ("stages", Json::Arr(stages)),
-        (
-            "caution",
-            text(
-                "Simulation results inform design; they do not certify it. Validate against \
-                 experiments and applicable codes and standards.",
-            ),
-        ),
-    ];
-    let doc = Json::Obj(
-        entries
-            .into_iter()
-            .map(|(k, v)| (k.to_string(), v))
-            .collect(),
-    );
-    write_atomic(path, doc.render().as_bytes())?;
-    Ok(())
 }

@@ -9,22 +9,29 @@
 //! Every check that needs no computation happens in [`load_model`] and [`check_model`], so a
 //! bad scenario never starts a run and never touches an earlier results folder.
 
+mod checkpoint;
 mod driver;
 mod formula;
 mod model;
 mod program;
 mod record;
+mod report;
+mod resume;
 
 use std::path::PathBuf;
 
+pub use checkpoint::{
+    checkpoint_name, list_checkpoints, load_checkpoint, read_checkpoint, scenario_hash, Checkpoint,
+};
 pub use driver::{
-    build_dofs, check_model, describe_stop, run, stop_target, Progress, RunOptions, RunSummary,
+    build_dofs, check_model, run, run_with, Progress, RunControl, RunOptions, RunSummary,
     StageOutcome,
 };
 pub use formula::Formula;
 pub use model::{build_model, load_model, material_table, Model, FARADAY};
 pub use program::{value_at, Condition, ConditionKind, StagePlan, Target};
-pub use record::{nodal_field, HistoryRow, HISTORY_COLUMNS};
+pub use record::{nodal_field, HistoryRow, HISTORY_COLUMNS, TIMING_COLUMNS};
+pub use report::{describe_stop, stop_target};
 
 /// Why a scenario could not be checked or run.
 #[derive(Debug, thiserror::Error)]
@@ -51,9 +58,13 @@ pub enum RunError {
          add supports or symmetry conditions, or set body.rigid_modes = \"pin\""
     )]
     RigidModes { stage: String, modes: String },
-    /// The time step fell below its minimum; results up to `time` are in `out`.
+    /// The time step fell below its minimum; results up to `time` and a checkpoint of the last
+    /// good state are in `out`.
     #[error(
-        "stage '{stage}' stopped at t = {time:e} s: {message}; results up to this time are in {}",
+        "stage '{stage}' stopped at t = {time:e} s: {message}; results up to this time and a \
+         checkpoint of the last good state are in {}; to go on with changed settings: dilata \
+         resume {} --force",
+        out.display(),
         out.display()
     )]
     Stalled {
@@ -65,4 +76,26 @@ pub enum RunError {
     /// A numerical failure outside the time loop (initial state, solver set-up).
     #[error("{0}")]
     Numerical(String),
+    /// The run was asked to stop (Ctrl-C, SIGTERM) and stopped between two steps after
+    /// writing a checkpoint.
+    #[error(
+        "interrupted at t = {time:e} s; a checkpoint and the results so far are in {}; \
+         continue with: dilata resume {}",
+        out.display(),
+        out.display()
+    )]
+    Interrupted { time: f64, out: PathBuf },
+    /// A checkpoint file cannot be read or is damaged.
+    #[error("checkpoint {}: {message}", path.display())]
+    Checkpoint { path: PathBuf, message: String },
+    /// The scenario changed since the run started.
+    #[error(
+        "the scenario {file} differs from the one the run in {} was started with; pass \
+         --force to continue with the changed scenario",
+        out.display()
+    )]
+    ScenarioChanged { file: String, out: PathBuf },
+    /// A checkpoint cannot continue with this scenario, even forced.
+    #[error("cannot resume: {0}")]
+    Resume(String),
 }

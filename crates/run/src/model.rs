@@ -660,6 +660,8 @@ fn check_time(scenario: &Scenario, src: Source<'_>) -> Result<(), RunError> {
         ("time.tolerance", Some(t.tolerance)),
         ("time.absolute_tolerance", t.absolute_tolerance),
         ("output.every", scenario.output.every),
+        ("output.checkpoint_every", scenario.output.checkpoint_every),
+        ("output.checkpoint_wall", scenario.output.checkpoint_wall),
         ("solver.newton_tolerance", scenario.solver.newton_tolerance),
     ];
     for (key, value) in positive {

@@ -1,8 +1,12 @@
 //! Result files of a run: field snapshots (`.vtu` + `fields.pvd`), `history.csv` flushed every
-//! step, the scenario copy and `summary.json`.
+//! step, `run.log`, the wall-clock file `timing.csv`, the scenario copy and `summary.json`.
+//!
+//! Every file but `timing.csv` is a deterministic function of the scenario: wall-clock times
+//! live only there, so two runs of one scenario (any thread count, resumed or not) give
+//! identical bytes everywhere else.
 
 use std::fs::File;
-use std::io::{BufWriter, Write};
+use std::io::{BufWriter, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
 
 use dilata_fem::dofs::DofMap;
@@ -14,7 +18,7 @@ use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
 use dilata_mesh::Mesh;
 
 /// Columns of `history.csv`, in order (documented in docs/scenario.md).
-pub const HISTORY_COLUMNS: [&str; 19] = [
+pub const HISTORY_COLUMNS: [&str; 18] = [
     "time_s",
     "step",
     "stage",
@@ -33,7 +37,6 @@ pub const HISTORY_COLUMNS: [&str; 19] = [
     "peak_von_mises_stress_pa",
     "elastic_energy_j",
     "chemical_energy_j",
-    "wall_s",
 ];
 
 /// One row of the history.
@@ -57,13 +60,6 @@ pub struct HistoryRow {
     pub peak_von_mises: f64,
     pub elastic_energy: f64,
     pub chemical_energy: f64,
-    pub wall: f64,
-}
-
-/// `history.csv`, one line per accepted step, flushed as it is written.
-pub struct History {
-    path: PathBuf,
-    file: BufWriter<File>,
 }
 
 fn io_err(path: &Path, operation: &'static str) -> impl FnOnce(std::io::Error) -> IoError {
@@ -75,25 +71,94 @@ fn io_err(path: &Path, operation: &'static str) -> impl FnOnce(std::io::Error) -
     }
 }
 
+/// A text file written line by line and flushed after every line, which knows its length so
+/// that a checkpoint can record it and a resumed run can cut the file back to it.
+struct LineFile {
+    path: PathBuf,
+    file: BufWriter<File>,
+    len: u64,
+}
+
+impl LineFile {
+    /// Create (truncate) the file.
+    fn create(path: &Path) -> Result<LineFile, IoError> {
+        let file = File::create(path).map_err(io_err(path, "create"))?;
+        Ok(LineFile {
+            path: path.to_path_buf(),
+            file: BufWriter::new(file),
+            len: 0,
+        })
+    }
+
+    /// Open an existing file, cut it to `len` bytes and append after them. Fails when the file
+    /// is shorter than `len` (it was changed since the length was recorded).
+    fn reopen(path: &Path, len: u64) -> Result<LineFile, IoError> {
+        let file = std::fs::OpenOptions::new()
+            .write(true)
+            .open(path)
+            .map_err(io_err(path, "open for resuming"))?;
+        let actual = file
+            .metadata()
+            .map_err(io_err(path, "open for resuming"))?
+            .len();
+        if actual < len {
+            return Err(IoError::Io {
+                path: path.to_path_buf(),
+                operation: "open for resuming",
+                source: std::io::Error::other(format!(
+                    "the file has {actual} bytes but the checkpoint recorded {len}; it was \
+                     changed after the checkpoint"
+                )),
+            });
+        }
+        file.set_len(len).map_err(io_err(path, "truncate"))?;
+        let mut file = BufWriter::new(file);
+        file.seek(SeekFrom::Start(len))
+            .map_err(io_err(path, "seek"))?;
+        Ok(LineFile {
+            path: path.to_path_buf(),
+            file,
+            len,
+        })
+    }
+
+    /// Append one line (a newline is added) and flush it to the operating system.
+    fn line(&mut self, text: &str) -> Result<(), IoError> {
+        writeln!(self.file, "{text}")
+            .and_then(|_| self.file.flush())
+            .map_err(io_err(&self.path, "write"))?;
+        self.len += text.len() as u64 + 1;
+        Ok(())
+    }
+}
+
+/// `history.csv`, one line per accepted step, flushed as it is written.
+pub struct History(LineFile);
+
 impl History {
     /// Create (truncate) the file and write the header.
     pub fn create(path: &Path) -> Result<History, IoError> {
-        let file = File::create(path).map_err(io_err(path, "create"))?;
-        let mut h = History {
-            path: path.to_path_buf(),
-            file: BufWriter::new(file),
-        };
-        let header = HISTORY_COLUMNS.join(",");
-        writeln!(h.file, "{header}").map_err(io_err(path, "write"))?;
-        h.file.flush().map_err(io_err(path, "write"))?;
+        let mut h = History(LineFile::create(path)?);
+        h.0.line(&HISTORY_COLUMNS.join(","))?;
         Ok(h)
     }
 
-    /// Append a row and flush it to the operating system.
+    /// Continue the file after its first `len` bytes (see [`History::n_bytes`]).
+    pub fn reopen(path: &Path, len: u64) -> Result<History, IoError> {
+        LineFile::reopen(path, len).map(History)
+    }
+
+    /// Bytes written so far.
+    pub fn n_bytes(&self) -> u64 {
+        self.0.len
+    }
+
+    /// Append a row and flush it to the operating system. Floating-point values are written
+    /// with 17 significant digits (they read back to the same bits) except the mass-balance
+    /// error, a diagnostic, with 7.
     pub fn append(&mut self, r: &HistoryRow) -> Result<(), IoError> {
-        writeln!(
-            self.file,
-            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.3}",
+        let line = format!(
+            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e}",
             r.time,
             r.step,
             r.stage,
@@ -112,35 +177,73 @@ impl History {
             r.peak_von_mises,
             r.elastic_energy,
             r.chemical_energy,
-            r.wall
-        )
-        .and_then(|_| self.file.flush())
-        .map_err(io_err(&self.path, "write"))
+        );
+        self.0.line(&line)
     }
 }
 
 /// `run.log`: one line per noteworthy event (rejected step attempts and their causes, a run
 /// stopping early), flushed as written.
-pub struct RunLog {
-    path: PathBuf,
-    file: BufWriter<File>,
-}
+pub struct RunLog(LineFile);
 
 impl RunLog {
     /// Create (truncate) the log.
     pub fn create(path: &Path) -> Result<RunLog, IoError> {
-        let file = File::create(path).map_err(io_err(path, "create"))?;
-        Ok(RunLog {
-            path: path.to_path_buf(),
-            file: BufWriter::new(file),
-        })
+        LineFile::create(path).map(RunLog)
+    }
+
+    /// Continue the log after its first `len` bytes.
+    pub fn reopen(path: &Path, len: u64) -> Result<RunLog, IoError> {
+        LineFile::reopen(path, len).map(RunLog)
+    }
+
+    /// Bytes written so far.
+    pub fn n_bytes(&self) -> u64 {
+        self.0.len
     }
 
     /// Append one line.
     pub fn note(&mut self, line: &str) -> Result<(), IoError> {
-        writeln!(self.file, "{line}")
-            .and_then(|_| self.file.flush())
-            .map_err(io_err(&self.path, "write"))
+        self.0.line(line)
+    }
+}
+
+/// Columns of `timing.csv`, the only result file with wall-clock times.
+pub const TIMING_COLUMNS: [&str; 4] = ["step", "time_s", "wall_s", "session"];
+
+/// `timing.csv`: per accepted step, the wall-clock seconds spent on the run so far (summed over
+/// the sessions of a resumed run, counting only the steps that were kept) and the session
+/// (0 for the first, +1 for every resume).
+pub struct Timing(LineFile);
+
+impl Timing {
+    /// Create (truncate) the file and write the header.
+    pub fn create(path: &Path) -> Result<Timing, IoError> {
+        let mut t = Timing(LineFile::create(path)?);
+        t.0.line(&TIMING_COLUMNS.join(","))?;
+        Ok(t)
+    }
+
+    /// Continue the file after its first `len` bytes.
+    pub fn reopen(path: &Path, len: u64) -> Result<Timing, IoError> {
+        LineFile::reopen(path, len).map(Timing)
+    }
+
+    /// Bytes written so far.
+    pub fn n_bytes(&self) -> u64 {
+        self.0.len
+    }
+
+    /// Append one row.
+    pub fn append(
+        &mut self,
+        step: usize,
+        time: f64,
+        wall: f64,
+        session: usize,
+    ) -> Result<(), IoError> {
+        self.0
+            .line(&format!("{step},{time:.17e},{wall:.3},{session}"))
     }
 }
 
@@ -254,4 +357,30 @@ pub fn write_snapshot(
         })
         .collect();
     Ok((name, probes))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_reopened_file_is_cut_back_and_continued_and_a_short_one_refused() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("run.log");
+        let mut log = RunLog::create(&path).unwrap();
+        log.note("first").unwrap();
+        let kept = log.n_bytes();
+        log.note("second, written after the checkpoint").unwrap();
+        drop(log);
+        let mut log = RunLog::reopen(&path, kept).unwrap();
+        log.note("third").unwrap();
+        assert_eq!(std::fs::read_to_string(&path).unwrap(), "first\nthird\n");
+        assert_eq!(log.n_bytes(), 12);
+        drop(log);
+        let err = RunLog::reopen(&path, 100).err().unwrap().to_string();
+        assert!(
+            err.contains("12 bytes but the checkpoint recorded 100"),
+            "{err}"
+        );
+    }
 }

@@ -97,19 +97,36 @@ pub struct NewtonInfo {
 pub enum NewtonError<E: std::error::Error + 'static> {
     #[error("Newton did not converge in {iterations} iterations (residual {residual:e})")]
     NotConverged { iterations: usize, residual: f64 },
-    #[error("non-finite residual at iteration {iteration}")]
-    NonFinite { iteration: usize },
+    /// `dof`: the first unknown whose residual (or correction) is not finite, where known.
+    #[error("non-finite residual at iteration {iteration}{}", at_dof(*.dof))]
+    NonFinite {
+        iteration: usize,
+        dof: Option<usize>,
+    },
     #[error("linear solve failed: {0}")]
     Linear(#[from] LinalgError),
     #[error(transparent)]
     System(E),
 }
 
+fn at_dof(dof: Option<usize>) -> String {
+    dof.map_or(String::new(), |d| format!(" (first at dof {d})"))
+}
+
+/// Index of the first entry that is not finite.
+fn first_non_finite(v: &[f64]) -> Option<usize> {
+    v.iter().position(|x| !x.is_finite())
+}
+
 fn max_norm(v: &[f64]) -> f64 {
-    v.iter().fold(
-        0.0_f64,
-        |m, x| if x.is_nan() { f64::NAN } else { m.max(x.abs()) },
-    )
+    // `f64::max` drops a NaN operand, so a NaN must stick explicitly once seen.
+    v.iter().fold(0.0_f64, |m, x| {
+        if m.is_nan() || x.is_nan() {
+            f64::NAN
+        } else {
+            m.max(x.abs())
+        }
+    })
 }
 
 /// Solve `R(x) = 0` starting from `x`. The solver must have been analysed on the system's pattern
@@ -138,7 +155,10 @@ pub fn newton<S: DiscreteSystem>(
         .map_err(NewtonError::System)?;
     let mut rn = max_norm(&res);
     if !rn.is_finite() {
-        return Err(NewtonError::NonFinite { iteration: 0 });
+        return Err(NewtonError::NonFinite {
+            iteration: 0,
+            dof: first_non_finite(&res),
+        });
     }
     info.residual_norms.push(rn);
     let blocks = system.blocks();
@@ -168,7 +188,10 @@ pub fn newton<S: DiscreteSystem>(
         }
         solver.solve_in_place(&mut dx)?;
         if !max_norm(&dx).is_finite() {
-            return Err(NewtonError::NonFinite { iteration: it });
+            return Err(NewtonError::NonFinite {
+                iteration: it,
+                dof: first_non_finite(&dx),
+            });
         }
         // A correction below the step tolerance in every block: the iterate is converged to
         // round-off, where a residual comparison is noise. Take the step and stop.
@@ -212,7 +235,10 @@ pub fn newton<S: DiscreteSystem>(
                 Err(_) => f64::NAN,
             };
             if !tn.is_finite() && last {
-                return Err(NewtonError::NonFinite { iteration: it });
+                return Err(NewtonError::NonFinite {
+                    iteration: it,
+                    dof: first_non_finite(&res),
+                });
             }
             let tm = scaled_merit(&res, &blocks, &r0, &floors, &active);
             let decrease = tm <= (1.0 - 1e-4 * alpha) * merit || tm == 0.0;

@@ -46,4 +46,5 @@ pub use types::{
     Amount, Body, BoundarySpec, Element, FreeEnergy, Geometry, Initial, LinearSolverName, Material,
     MobilityKind, NumberOrFormula, Orders, OutputSpec, RigidModes, ScalarOrTensor, Scenario,
     SchemeName, Shape, SolverSpec, Stage, StopRule, TimeSpec, TimeTable, ZoneBox,
+    DEFAULT_CHECKPOINT_WALL,
 };

@@ -439,7 +439,17 @@ pub struct OutputSpec {
     /// Write field snapshots at all (history.csv and the summary are always written).
     #[serde(default = "yes")]
     pub fields: bool,
+    /// Write a checkpoint after the first step that passes every multiple of this many
+    /// simulated seconds (none when absent). Steps do not land on these times.
+    pub checkpoint_every: Option<f64>,
+    /// Write a checkpoint when this many wall-clock seconds have passed since the last one
+    /// (default [`DEFAULT_CHECKPOINT_WALL`]).
+    pub checkpoint_wall: Option<f64>,
 }
+
+/// Default wall-clock interval between checkpoints in seconds: a crash costs at most ten
+/// minutes of computing.
+pub const DEFAULT_CHECKPOINT_WALL: f64 = 600.0;
 
 fn yes() -> bool {
     true
@@ -451,6 +461,8 @@ impl Default for OutputSpec {
             every: None,
             times: Vec::new(),
             fields: true,
+            checkpoint_every: None,
+            checkpoint_wall: None,
         }
     }
 }
