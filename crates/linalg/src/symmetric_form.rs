@@ -394,6 +394,27 @@ impl SymmetricFormSolver {
     }
 }
 
+impl SymmetricFormSolver {
+    /// GMRES with the current preconditioner, counted in the statistics: `Ok(None)` when it
+    /// did not converge (then `rhs` is unchanged and the next `factor` builds a new
+    /// factorisation).
+    fn counted_gmres(&mut self, rhs: &mut [f64]) -> Result<Option<SolveInfo>, LinalgError> {
+        match self.gmres_solve(rhs) {
+            Ok(info) => {
+                self.stats.gmres_iterations += info.iterations;
+                self.last_iterations = info.iterations;
+                Ok(Some(info))
+            }
+            Err(LinalgError::NotConverged { iterations, .. }) => {
+                self.stats.gmres_iterations += iterations;
+                self.last_iterations = usize::MAX;
+                Ok(None)
+            }
+            Err(e) => Err(e),
+        }
+    }
+}
+
 fn missing_factor() -> LinalgError {
     LinalgError::Usage("solve called before a successful factor".into())
 }
@@ -575,31 +596,14 @@ impl LinearSolver for SymmetricFormSolver {
         if !self.preconditioner_ready {
             return self.lu_solve(rhs);
         }
-        match self.gmres_solve(rhs) {
-            Ok(info) => {
-                self.stats.gmres_iterations += info.iterations;
-                self.last_iterations = info.iterations;
-                return Ok(info);
-            }
-            Err(LinalgError::NotConverged { iterations, .. }) => {
-                self.stats.gmres_iterations += iterations;
-                self.last_iterations = usize::MAX;
-            }
-            Err(e) => return Err(e),
+        if let Some(info) = self.counted_gmres(rhs)? {
+            return Ok(info);
         }
         // Not converged: retry with a preconditioner from this very matrix, then the LU.
         if !self.preconditioner_fresh && self.build_preconditioner().is_ok() {
             self.build_a_hat();
-            match self.gmres_solve(rhs) {
-                Ok(info) => {
-                    self.stats.gmres_iterations += info.iterations;
-                    self.last_iterations = info.iterations;
-                    return Ok(info);
-                }
-                Err(LinalgError::NotConverged { iterations, .. }) => {
-                    self.stats.gmres_iterations += iterations;
-                }
-                Err(e) => return Err(e),
+            if let Some(info) = self.counted_gmres(rhs)? {
+                return Ok(info);
             }
         }
         self.lu_solve(rhs)
