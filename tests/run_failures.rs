@@ -3,7 +3,7 @@
 
 use std::path::Path;
 
-use dilata_run::{build_model, run, RunError, RunOptions};
+use dilata_run::{build_model, run, Model, RunError, RunOptions};
 
 /// A lattice-gas slab filled through its left edge by a flux far larger than diffusion can carry
 /// away: the concentration at the edge must pass the site concentration, which the law refuses.
@@ -50,12 +50,12 @@ first_step = 1.0
 min_step = 1e-6
 "#;
 
-#[test]
-fn a_stalled_run_names_the_cell_and_keeps_its_results() {
-    let model = build_model(OVERFILLED.to_string(), "overfilled.toml", Path::new(".")).unwrap();
+/// Run `model` into a fresh folder; the run must fail. Prints and returns the error, and the
+/// folder with what the run kept.
+fn run_to_failure(model: &Model) -> (RunError, tempfile::TempDir) {
     let dir = tempfile::tempdir().unwrap();
     let err = run(
-        &model,
+        model,
         &RunOptions {
             out: dir.path().to_path_buf(),
             threads: Some(1),
@@ -63,8 +63,15 @@ fn a_stalled_run_names_the_cell_and_keeps_its_results() {
         &mut |_| {},
     )
     .unwrap_err();
+    println!("{err}");
+    (err, dir)
+}
+
+#[test]
+fn a_stalled_run_names_the_cell_and_keeps_its_results() {
+    let model = build_model(OVERFILLED.to_string(), "overfilled.toml", Path::new(".")).unwrap();
+    let (err, dir) = run_to_failure(&model);
     let text = err.to_string();
-    println!("{text}");
     match &err {
         RunError::Stalled { stage, time, .. } => {
             assert_eq!(stage, "flood");
@@ -118,18 +125,8 @@ diffusivity = 1e-15
             1,
         );
     let model = build_model(text, "overflowing.toml", Path::new(".")).unwrap();
-    let dir = tempfile::tempdir().unwrap();
-    let err = run(
-        &model,
-        &RunOptions {
-            out: dir.path().to_path_buf(),
-            threads: Some(1),
-        },
-        &mut |_| {},
-    )
-    .unwrap_err();
+    let (err, _dir) = run_to_failure(&model);
     let text = err.to_string();
-    println!("{text}");
     assert!(matches!(err, RunError::Numerical(_)), "{text}");
     assert!(text.contains("non-finite residual"), "{text}");
     assert!(text.contains("material 'overflowing'"), "{text}");
