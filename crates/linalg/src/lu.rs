@@ -374,10 +374,8 @@ impl LinearSolver for FaerLu {
 /// Equilibration of `a` (see [`FaerLu`]): Ruiz's iteration, which divides every row and
 /// column by the square root of its largest scaled entry until all of them are close to one
 /// (D. Ruiz, "A scaling algorithm to equilibrate both rows and columns norms in matrices",
-/// RAL-TR-2001-034, 2001; from memory). A zero row or column is singular. Starts from
-/// `row_scale`, `col_scale` when they fit `a` (a warm start), from ones otherwise. On a
-/// symmetric matrix the two scalings stay equal (the symmetric-form solver relies on it).
-pub(crate) fn equilibrate_into(
+/// RAL-TR-2001-034, 2001; from memory). A zero row or column is singular.
+fn equilibrate_into(
     a: &CsrMatrix,
     row_scale: &mut Vec<f64>,
     col_scale: &mut Vec<f64>,

@@ -32,7 +32,7 @@ use crate::direct::{check_rhs_len, DirectParams};
 use crate::gmres::gmres_iterate;
 use crate::krylov::KrylovParams;
 use crate::ldlt::{FaerLdlt, LdltPivoting, SignedPivots};
-use crate::lu::{equilibrate_into, FaerLu};
+use crate::lu::FaerLu;
 use crate::ordering::Ordering;
 use crate::parallel::Parallelism;
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
@@ -303,13 +303,7 @@ impl SymmetricFormSolver {
                 s.values[cr] += v;
             }
         }
-        // Ruiz's scaling of the LU, from ones every time: on the symmetric `S` its row and
-        // column scalings agree (to the last bits of a product's rounding), so `D` is the row
-        // scaling and `D S D` the scaled matrix.
-        let (mut col_scale, mut scaled) = (Vec::new(), Vec::new());
-        self.d.clear();
-        equilibrate_into(&s, &mut self.d, &mut col_scale, &mut scaled)?;
-        s.values = scaled;
+        symmetric_equilibrate_into(&mut s, &mut self.d)?;
         ldlt.factor(&s)?;
         self.stats.symmetric_factorizations += 1;
         self.preconditioner_ready = true;
@@ -423,6 +417,47 @@ impl SymmetricFormSolver {
 
 fn missing_factor() -> LinalgError {
     LinalgError::Usage("solve called before a successful factor".into())
+}
+
+/// Symmetric Ruiz scaling: `d_i ← d_i / sqrt(max_j |d_i s_ij d_j|)` until every row maximum of
+/// `D S D` is within 5 % of one (at most 30 sweeps), then `s := D S D`. Keeps `S` symmetric
+/// (Ruiz, RAL-TR-2001-034, 2001, the symmetric case; from memory). A zero row is singular.
+fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(), LinalgError> {
+    const MAX_SWEEPS: usize = 30;
+    const TOLERANCE: f64 = 0.05;
+    let p = s.pattern.clone();
+    let n = p.n_rows;
+    d.clear();
+    d.resize(n, 1.0);
+    let original = s.values.clone();
+    let mut row_max = vec![0.0f64; n];
+    for _ in 0..MAX_SWEEPS {
+        row_max.iter_mut().for_each(|m| *m = 0.0);
+        for i in 0..n {
+            for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+                let v = (d[i] * original[k] * d[p.col_idx[k]]).abs();
+                row_max[i] = row_max[i].max(v);
+            }
+        }
+        if let Some(i) = row_max
+            .iter()
+            .position(|m| m.is_nan() || *m <= 0.0 || !m.is_finite())
+        {
+            return Err(LinalgError::Singular { pivot: Some(i) });
+        }
+        if row_max.iter().all(|m| (m - 1.0).abs() <= TOLERANCE) {
+            break;
+        }
+        for (di, m) in d.iter_mut().zip(&row_max) {
+            *di /= m.sqrt();
+        }
+    }
+    for i in 0..n {
+        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+            s.values[k] = d[i] * original[k] * d[p.col_idx[k]];
+        }
+    }
+    Ok(())
 }
 
 impl LinearSolver for SymmetricFormSolver {
