@@ -74,12 +74,42 @@ fn lattice_law() -> CoupledPointLaw {
             c_max: C_MAX,
         })
         .unwrap(),
+        gradient: dilata_material::gradient::GradientEnergy::none(),
     })
     .unwrap()
 }
 
+/// `law` with a gradient energy `κ` (J·m⁵/mol²; on these 1 µm cells `κ/h²` is of the order of
+/// `dμ/dc`, so both terms of the potential row are exercised).
+fn with_gradient(law: CoupledPointLaw, kappa: nalgebra::Matrix3<f64>) -> CoupledPointLaw {
+    CoupledPointLaw::new(CoupledLawParts {
+        gradient: dilata_material::gradient::GradientEnergy::tensor(kappa).unwrap(),
+        ..*law.parts()
+    })
+    .unwrap()
+}
+
+/// A double-well host (wells at 500 and 1500 mol/m³ around the test state's C0) with a
+/// constant mobility and an isotropic gradient energy.
+fn double_well_law() -> CoupledPointLaw {
+    use dilata_material::chemical::DoubleWellParams;
+    let parts = CoupledLawParts {
+        chemical: ChemicalLaw::double_well(DoubleWellParams {
+            height: 1e-6,
+            c_a: 500.0,
+            c_b: 1500.0,
+        })
+        .unwrap(),
+        mobility: MobilityLaw::constant(nalgebra::Matrix3::identity() * 1e-18).unwrap(),
+        gradient: dilata_material::gradient::GradientEnergy::isotropic(2e-12).unwrap(),
+        ..*lattice_law().parts()
+    };
+    CoupledPointLaw::new(parts).unwrap()
+}
+
 /// Every tangent block of the cell kernel equals central differences of its residual
-/// (common practice, no source: the consistent-tangent check described in DEVELOPERS.md).
+/// (common practice, no source: the consistent-tangent check described in DEVELOPERS.md),
+/// with and without the gradient energy of phase separation.
 #[test]
 fn coupled_tangent_matches_finite_differences() {
     let cases: Vec<(Mesh, GeometryMode, CoupledPointLaw)> = vec![
@@ -137,6 +167,42 @@ fn coupled_tangent_matches_finite_differences() {
             .unwrap(),
             GeometryMode::Axisymmetric,
             dilute_law(false),
+        ),
+        (
+            rectangle(&RectangleParams {
+                origin: [0.5e-6, 0.0],
+                lengths: [1e-6, 1e-6],
+                n_cells: [1, 1],
+                kind: CellKind::Quad9,
+            })
+            .unwrap(),
+            GeometryMode::Axisymmetric,
+            with_gradient(
+                lattice_law(),
+                nalgebra::Matrix3::new(3e-12, 1e-12, 0.0, 1e-12, 2e-12, 0.0, 0.0, 0.0, 1e-12),
+            ),
+        ),
+        (
+            rectangle(&RectangleParams {
+                origin: [0.0, 0.0],
+                lengths: [1e-6, 1e-6],
+                n_cells: [1, 1],
+                kind: CellKind::Quad8,
+            })
+            .unwrap(),
+            GeometryMode::PlaneStrain,
+            double_well_law(),
+        ),
+        (
+            cuboid(&BoxParams {
+                origin: [0.0; 3],
+                lengths: [1e-6; 3],
+                n_cells: [1, 1, 1],
+                kind: CellKind::Hex20,
+            })
+            .unwrap(),
+            GeometryMode::ThreeD,
+            double_well_law(),
         ),
     ];
     for (mesh, mode, law) in &cases {
@@ -362,6 +428,7 @@ fn one_step(problem: &mut CoupledProblem<'_>, x0: Vec<f64>, dt: f64) -> Vec<f64>
         },
         cut_factor: 0.5,
         dt_min: dt * 1e-3,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, x0);
     integ.step(problem, &mut solver, dt).unwrap();
@@ -527,6 +594,7 @@ fn mass_balance_with_inward_flux() {
         },
         cut_factor: 0.5,
         dt_min: 1e-6,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, x.clone());
     let m0 = total(&x, &problem);

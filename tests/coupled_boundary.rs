@@ -115,6 +115,7 @@ fn integrator(sizing: StepSizing, x0: Vec<f64>) -> Integrator {
         newton: newton_params(),
         cut_factor: 0.5,
         dt_min: 1e-6,
+        energy: None,
     };
     Integrator::new(params, 0.0, x0)
 }

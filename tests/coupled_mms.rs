@@ -248,6 +248,7 @@ fn solve_and_measure(m: &Arc<Manufactured>, run: &Run<'_>) -> Errors {
         },
         cut_factor: 0.5,
         dt_min: run.dt * 1e-3,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, x0);
     while integ.state.t < run.t_end - 1e-9 * run.dt {

@@ -130,6 +130,7 @@ fn point_values(
                     strain,
                     c: cq,
                     grad_mu: Default::default(),
+                    grad_c: Default::default(),
                 })
                 .unwrap();
             let sh = hydrostatic(&p.stress);
@@ -237,6 +238,7 @@ fn run(nx: usize, ny: usize) -> Outcome {
         },
         cut_factor: 0.5,
         dt_min: 1e-9,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, x0);
     let mut amount_drift: f64 = 0.0;

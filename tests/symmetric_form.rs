@@ -225,6 +225,7 @@ fn time_steps_match_the_lu_solution() {
             },
             cut_factor: 0.5,
             dt_min: 1e-6,
+            energy: None,
         };
         let mut integ = Integrator::new(params, 0.0, x0);
         integ.step(&mut p, solver, 0.2).unwrap();

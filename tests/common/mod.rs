@@ -136,6 +136,7 @@ pub fn dilute_parts(host: &DiluteHost) -> dilata_material::coupled::CoupledLawPa
             temperature: host.temperature,
         })
         .unwrap(),
+        gradient: dilata_material::gradient::GradientEnergy::none(),
     }
 }
 

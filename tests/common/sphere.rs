@@ -164,6 +164,7 @@ pub fn run_sphere(mesh: &Mesh, run: &SphereRun, mut observe: impl FnMut(&SphereS
         },
         cut_factor: 0.5,
         dt_min: run.dt * 1e-3,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, x0);
     while integ.state.t < t_end * (1.0 - 1e-12) {

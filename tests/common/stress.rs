@@ -114,6 +114,7 @@ pub fn coupled_stresses(
                     strain,
                     c: cq,
                     grad_mu: Default::default(),
+                    grad_c: Default::default(),
                 })
                 .unwrap();
             out.push(PointStress {

@@ -40,6 +40,7 @@ fn law(omega: f64) -> CoupledPointLaw {
             c_max: C_MAX,
         })
         .unwrap(),
+        gradient: dilata_material::gradient::GradientEnergy::none(),
     })
     .unwrap()
 }
@@ -198,6 +199,7 @@ impl Manufactured {
             strain: self.strain(p, t),
             c: self.c.value(p, t),
             grad_mu: Default::default(),
+            grad_c: Default::default(),
         };
         input.grad_mu[0] = self.mu.d(p, t, 1, 0);
         input.grad_mu[1] = self.mu.d(p, t, 0, 1);

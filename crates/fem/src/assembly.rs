@@ -559,10 +559,16 @@ fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern 
     let mut row = Vec::new();
     for &f in &handles {
         let ncf = dofs.spec(f).n_components;
+        if ncf == 0 {
+            continue;
+        }
         for node in dofs.field_nodes(f) {
             row.clear();
             for &g in &handles {
                 let ncg = dofs.spec(g).n_components;
+                if ncg == 0 {
+                    continue;
+                }
                 for &m in &nadj[nptr[node]..nptr[node + 1]] {
                     if let Ok(d0) = dofs.node_dof(g, m, 0) {
                         row.extend(d0..d0 + ncg);

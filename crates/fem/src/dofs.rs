@@ -16,7 +16,9 @@ use crate::values::space_kind;
 #[derive(Clone, Debug, PartialEq)]
 pub struct FieldSpec {
     pub name: String,
-    /// 1 for a scalar, the space dimension for a vector field.
+    /// 1 for a scalar, the space dimension for a vector field; 0 for a field that is switched
+    /// off (it keeps its handle and local node numbering but has no DOFs, so kernels written
+    /// for it loop over no components).
     pub n_components: usize,
     /// Interpolation order: 1 (linear) or 2 (quadratic, needs a quadratic mesh).
     pub order: usize,

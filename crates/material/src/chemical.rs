@@ -9,7 +9,12 @@
 //! * Lattice gas with regular-solution interaction, `θ = c/c_max`:
 //!   `μ_chem = μ0 + RT ln(θ/(1−θ)) + Ω_int (1 − 2θ)`, from
 //!   `ψ = μ0 c + RT c_max (θ ln θ + (1−θ) ln(1−θ)) + Ω_int c_max θ(1−θ)`, defined for
-//!   `0 < c < c_max`.
+//!   `0 < c < c_max`. With `Ω_int > 2RT` the energy is non-convex between two spinodal
+//!   concentrations and the solution separates into two phases (with a gradient energy, see
+//!   [`crate::gradient`]).
+//! * Double well `ψ = W (c − c_a)² (c_b − c)²` with minima at the two phase concentrations
+//!   `c_a < c_b`: `μ_chem = 2W (c − c_a)(c_b − c)(c_a + c_b − 2c)`, defined for every finite
+//!   `c`. It has no temperature; its potentials are on the scale `W (c_b − c_a)³`.
 //!
 //! Both forms follow the conventions of docs/theory.md (dilute: Sofronis & McMeeking, J. Mech.
 //! Phys. Solids 37 (1989) 317; lattice gas: Larché & Cahn, Acta Metall. 33 (1985) 331; both
@@ -24,6 +29,51 @@ use crate::error::{finite, positive, ParameterError, RangeError, RangeLaw};
 /// Newell & Taylor, "CODATA recommended values of the fundamental physical constants: 2018",
 /// Rev. Mod. Phys. 93 (2021) 025010; from memory).
 pub const GAS_CONSTANT: f64 = 8.314462618;
+
+/// Parameters of the double well (plain data; check with [`DoubleWell::new`]).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct DoubleWellParams {
+    /// Barrier height coefficient `W` in J·m⁹/mol⁴ (> 0): the barrier between the wells is
+    /// `W (c_b − c_a)⁴ / 16` in J/m³.
+    pub height: f64,
+    /// Concentration of the first well `c_a` in mol/m³.
+    pub c_a: f64,
+    /// Concentration of the second well `c_b > c_a` in mol/m³.
+    pub c_b: f64,
+}
+
+/// Double-well free energy `ψ = W (c − c_a)² (c_b − c)²`. Built only through [`Self::new`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct DoubleWell {
+    params: DoubleWellParams,
+}
+
+impl DoubleWell {
+    /// Checked constructor: `W > 0`, finite well concentrations with `c_a < c_b`.
+    pub fn new(params: DoubleWellParams) -> Result<Self, ParameterError> {
+        positive("well height", params.height)?;
+        finite("c_a", params.c_a)?;
+        finite("c_b", params.c_b)?;
+        positive("c_b - c_a", params.c_b - params.c_a)?;
+        Ok(DoubleWell { params })
+    }
+
+    /// The parameters.
+    pub fn params(&self) -> &DoubleWellParams {
+        &self.params
+    }
+
+    /// `ψ`, `μ_chem = dψ/dc` and `dμ_chem/dc` at `c` (any finite `c`).
+    pub fn evaluate(&self, c: f64) -> Result<ChemicalState, RangeError> {
+        let p = &self.params;
+        let (a, b) = (c - p.c_a, p.c_b - c);
+        Ok(ChemicalState {
+            free_energy: p.height * a * a * b * b,
+            mu: 2.0 * p.height * a * b * (b - a),
+            dmu_dc: 2.0 * p.height * (a * a - 4.0 * a * b + b * b),
+        })
+    }
+}
 
 /// Value of a chemical law at one concentration.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -156,6 +206,8 @@ pub enum ChemicalLaw {
     IdealDilute(IdealDilute),
     /// Lattice gas with optional regular-solution interaction.
     LatticeGas(LatticeGas),
+    /// Double well.
+    DoubleWell(DoubleWell),
 }
 
 impl ChemicalLaw {
@@ -169,11 +221,31 @@ impl ChemicalLaw {
         LatticeGas::new(params).map(ChemicalLaw::LatticeGas)
     }
 
-    /// Temperature in K.
-    pub fn temperature(&self) -> f64 {
+    /// Checked double well.
+    pub fn double_well(params: DoubleWellParams) -> Result<Self, ParameterError> {
+        DoubleWell::new(params).map(ChemicalLaw::DoubleWell)
+    }
+
+    /// Temperature in K, `None` for the double well (which has none).
+    pub fn temperature(&self) -> Option<f64> {
         match self {
-            ChemicalLaw::IdealDilute(l) => l.params.temperature,
-            ChemicalLaw::LatticeGas(l) => l.params.temperature,
+            ChemicalLaw::IdealDilute(l) => Some(l.params.temperature),
+            ChemicalLaw::LatticeGas(l) => Some(l.params.temperature),
+            ChemicalLaw::DoubleWell(_) => None,
+        }
+    }
+
+    /// The scale of chemical-potential differences in J/mol: `RT` for the laws with a
+    /// temperature, `W (c_b − c_a)³` for the double well (the order of its potential between
+    /// the wells).
+    pub fn potential_scale(&self) -> f64 {
+        match self {
+            ChemicalLaw::IdealDilute(l) => GAS_CONSTANT * l.params.temperature,
+            ChemicalLaw::LatticeGas(l) => GAS_CONSTANT * l.params.temperature,
+            ChemicalLaw::DoubleWell(l) => {
+                let p = &l.params;
+                p.height * (p.c_b - p.c_a).powi(3)
+            }
         }
     }
 
@@ -182,6 +254,7 @@ impl ChemicalLaw {
         match self {
             ChemicalLaw::IdealDilute(l) => l.evaluate(c),
             ChemicalLaw::LatticeGas(l) => l.evaluate(c),
+            ChemicalLaw::DoubleWell(l) => l.evaluate(c),
         }
     }
 }
@@ -189,7 +262,8 @@ impl ChemicalLaw {
 #[cfg(test)]
 mod tests {
     use super::{
-        ChemicalLaw, IdealDiluteParams, LatticeGasParams, RangeError, RangeLaw, GAS_CONSTANT,
+        ChemicalLaw, DoubleWellParams, IdealDiluteParams, LatticeGasParams, RangeError, RangeLaw,
+        GAS_CONSTANT,
     };
 
     fn dilute() -> ChemicalLaw {
@@ -246,6 +320,59 @@ mod tests {
                 );
             }
         }
+    }
+
+    fn double_well() -> ChemicalLaw {
+        ChemicalLaw::double_well(DoubleWellParams {
+            height: 5.0,
+            c_a: 0.3,
+            c_b: 0.7,
+        })
+        .unwrap()
+    }
+
+    /// Double well: μ = dψ/dc and dμ/dc by central differences, inside, between and outside
+    /// the wells; zero potential at both minima and at the midpoint (the maximum) by symmetry;
+    /// spinodal points where dμ/dc = 0 at c = (c_a + c_b)/2 ± (c_b − c_a)/(2√3) (roots of
+    /// u² − 4uv + v² = 0; algebra, no source).
+    #[test]
+    fn double_well_derivatives_and_special_points() {
+        let law = double_well();
+        for c in [-0.4, 0.1, 0.3, 0.42, 0.5, 0.61, 0.7, 1.3] {
+            let s = law.evaluate(c).unwrap();
+            let h = 1e-5;
+            let d_psi = central(|x| law.evaluate(x).unwrap().free_energy, c, h);
+            let d_mu = central(|x| law.evaluate(x).unwrap().mu, c, h);
+            assert!((d_psi - s.mu).abs() < 1e-9 * (1.0 + s.mu.abs()), "c={c}");
+            assert!(
+                (d_mu - s.dmu_dc).abs() < 1e-8 * (1.0 + s.dmu_dc.abs()),
+                "c={c}"
+            );
+        }
+        for c in [0.3, 0.5, 0.7] {
+            assert!(law.evaluate(c).unwrap().mu.abs() < 1e-15);
+        }
+        assert_eq!(law.evaluate(0.3).unwrap().free_energy, 0.0);
+        // Barrier W (c_b − c_a)⁴ / 16 at the midpoint.
+        let barrier = law.evaluate(0.5).unwrap().free_energy;
+        assert!((barrier - 5.0 * 0.4f64.powi(4) / 16.0).abs() < 1e-15);
+        let spinodal = 0.2 / 3f64.sqrt();
+        for c in [0.5 - spinodal, 0.5 + spinodal] {
+            assert!(law.evaluate(c).unwrap().dmu_dc.abs() < 1e-13);
+        }
+        assert_eq!(law.temperature(), None);
+        assert!((law.potential_scale() - 5.0 * 0.4f64.powi(3)).abs() < 1e-15);
+    }
+
+    #[test]
+    fn double_well_rejects_bad_parameters() {
+        let bad = |height, c_a, c_b| {
+            ChemicalLaw::double_well(DoubleWellParams { height, c_a, c_b }).is_err()
+        };
+        assert!(bad(0.0, 0.3, 0.7));
+        assert!(bad(5.0, 0.7, 0.3));
+        assert!(bad(5.0, 0.5, 0.5));
+        assert!(bad(5.0, f64::NAN, 0.7));
     }
 
     /// Dilute: μ = μ0 at c_ref, and a tenfold rise in c adds RT ln 10 (definition).

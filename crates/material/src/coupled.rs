@@ -11,6 +11,7 @@
 //! use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams};
 //! use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw, PointInput};
 //! use dilata_material::elastic::{hydrostatic, Isotropic, Voigt};
+//! use dilata_material::gradient::GradientEnergy;
 //! use dilata_material::mobility::{DiluteMobilityParams, Diffusivity, MobilityLaw};
 //! use dilata_material::stiffness::StiffnessLaw;
 //! use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
@@ -31,6 +32,7 @@
 //!         diffusivity: Diffusivity::isotropic(7e-15)?,
 //!         temperature: 298.15,
 //!     })?,
+//!     gradient: GradientEnergy::none(),
 //! })?;
 //! // Clamped (zero total strain) at c = 1000 mol/m³: the host is in compression and the
 //! // compression raises the potential by −Ω σ_h > 0.
@@ -38,12 +40,18 @@
 //!     strain: Voigt::zeros(),
 //!     c: 1.0e3,
 //!     grad_mu: Vector3::zeros(),
+//!     grad_c: Vector3::zeros(),
 //! })?;
 //! assert!(hydrostatic(&out.stress) < 0.0);
 //! assert!((out.mu_mech + 3.5e-6 * hydrostatic(&out.stress)).abs() < 1e-9);
 //! // A concentration the dilute law cannot take is a recoverable error, not NaN.
 //! assert!(law
-//!     .evaluate(&PointInput { strain: Voigt::zeros(), c: -1.0, grad_mu: Vector3::zeros() })
+//!     .evaluate(&PointInput {
+//!         strain: Voigt::zeros(),
+//!         c: -1.0,
+//!         grad_mu: Vector3::zeros(),
+//!         grad_c: Vector3::zeros(),
+//!     })
 //!     .is_err());
 //! # Ok::<(), Box<dyn std::error::Error>>(())
 //! ```
@@ -53,6 +61,7 @@ use nalgebra::{Matrix3, Vector3};
 use crate::chemical::ChemicalLaw;
 use crate::elastic::{Stiffness, Voigt};
 use crate::error::{ParameterError, RangeError, RangeLaw};
+use crate::gradient::GradientEnergy;
 use crate::mobility::MobilityLaw;
 use crate::stiffness::StiffnessLaw;
 use crate::swelling::{mechanics, SwellingLaw};
@@ -69,6 +78,8 @@ pub struct CoupledLawParts {
     pub chemical: ChemicalLaw,
     /// Mobility.
     pub mobility: MobilityLaw,
+    /// Gradient energy `½ grad c · κ grad c` ([`GradientEnergy::none`] without interfaces).
+    pub gradient: GradientEnergy,
 }
 
 /// Coupled small-strain deformation–diffusion law. Built by [`Self::new`].
@@ -86,6 +97,8 @@ pub struct PointInput {
     pub c: f64,
     /// Gradient of the chemical potential field in J/(mol·m).
     pub grad_mu: Vector3<f64>,
+    /// Gradient of the concentration field in mol/m⁴ (read only with a gradient energy).
+    pub grad_c: Vector3<f64>,
 }
 
 /// Everything the coupled law gives at one point.
@@ -120,6 +133,12 @@ pub struct PointOutput {
     pub elastic_energy: f64,
     /// Chemical free energy `ψ_chem(c)` in J/m³.
     pub chemical_energy: f64,
+    /// `κ grad c` in J·m/mol (the potential equation tests it with `grad w`).
+    pub kappa_grad_c: Vector3<f64>,
+    /// `κ`, the derivative of `κ grad c` by `grad c`.
+    pub kappa: Matrix3<f64>,
+    /// Gradient energy `½ grad c · κ grad c` in J/m³.
+    pub gradient_energy: f64,
 }
 
 /// Relative tolerance on equal temperatures (common practice, no source).
@@ -129,8 +148,9 @@ impl CoupledPointLaw {
     /// Checked assembly of the four laws: a mobility that carries a temperature must use the
     /// chemical law's temperature, else `−M grad μ` no longer reduces to Fick's law.
     pub fn new(parts: CoupledLawParts) -> Result<Self, ParameterError> {
-        let chemical = parts.chemical.temperature();
-        if let Some(mobility) = parts.mobility.temperature() {
+        if let (Some(chemical), Some(mobility)) =
+            (parts.chemical.temperature(), parts.mobility.temperature())
+        {
             if (chemical - mobility).abs() > TEMPERATURE_TOLERANCE * chemical {
                 return Err(ParameterError::TemperatureMismatch { chemical, mobility });
             }
@@ -159,6 +179,9 @@ impl CoupledPointLaw {
         if !input.grad_mu.iter().all(|v| v.is_finite()) {
             return Err(non_finite("potential gradient"));
         }
+        if !input.grad_c.iter().all(|v| v.is_finite()) {
+            return Err(non_finite("concentration gradient"));
+        }
         let c = input.c;
         let chem = self.parts.chemical.evaluate(c)?;
         let mob = self.parts.mobility.evaluate(c)?;
@@ -180,6 +203,9 @@ impl CoupledPointLaw {
             dflux_dc: -(mob.dmobility_dc * input.grad_mu),
             elastic_energy: mech.energy,
             chemical_energy: chem.free_energy,
+            kappa_grad_c: self.parts.gradient.matrix() * input.grad_c,
+            kappa: *self.parts.gradient.matrix(),
+            gradient_energy: self.parts.gradient.energy(&input.grad_c),
         })
     }
 }

@@ -7,7 +7,8 @@
 //!
 //! Modules: [`elastic`] (linear elastic stiffness, Voigt conventions, invariants),
 //! [`stiffness`] (stiffness as a function of concentration), [`chemical`] (chemical free
-//! energies: ideal dilute, lattice gas), [`mobility`] (mobility tensors `M(c)`), [`swelling`]
+//! energies: ideal dilute, lattice gas, double well), [`gradient`] (gradient energy of
+//! interfaces), [`mobility`] (mobility tensors `M(c)`), [`swelling`]
 //! (swelling strain and the stress-dependent chemical potential), [`coupled`] (the small-strain
 //! deformation–diffusion law at one point, all tangent blocks) and [`error`] (parameter errors
 //! and recoverable range errors).
@@ -25,6 +26,7 @@ pub mod chemical;
 pub mod coupled;
 pub mod elastic;
 pub mod error;
+pub mod gradient;
 pub mod mobility;
 pub mod stiffness;
 pub mod swelling;

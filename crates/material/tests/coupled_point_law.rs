@@ -2,10 +2,13 @@
 //! against central differences of the outputs, energies against their derivatives, Fick's law
 //! under uniform stress and the stress-modified equilibrium concentration.
 
-use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams, LatticeGasParams, GAS_CONSTANT};
+use dilata_material::chemical::{
+    ChemicalLaw, DoubleWellParams, IdealDiluteParams, LatticeGasParams, GAS_CONSTANT,
+};
 use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw, PointInput, PointOutput};
 use dilata_material::elastic::{hydrostatic, Isotropic, Voigt};
 use dilata_material::error::{ParameterError, RangeError, RangeLaw};
+use dilata_material::gradient::GradientEnergy;
 use dilata_material::mobility::{
     Diffusivity, DiluteMobilityParams, LatticeGasMobilityParams, MobilityLaw,
 };
@@ -24,6 +27,7 @@ const NU: f64 = 0.3;
 enum Chem {
     Dilute,
     Lattice,
+    DoubleWell,
 }
 
 #[derive(Clone, Copy, Debug)]
@@ -64,16 +68,24 @@ fn law(chem: Chem, swell: Swell, stiff: Stiff, mob: Mob) -> CoupledPointLaw {
             c_max: C_MAX,
             interaction: 1.2e3,
         }),
+        // Wells at 2000 and 16000 mol/m³, potentials of order W Δc³ ≈ 1 kJ/mol.
+        Chem::DoubleWell => ChemicalLaw::double_well(DoubleWellParams {
+            height: 3.6e-10,
+            c_a: 2.0e3,
+            c_b: 1.6e4,
+        }),
     }
     .unwrap();
     let mobility = match (mob, chem) {
         (Mob::Constant, _) => MobilityLaw::constant(Matrix3::new(
             2e-18, 0.0, 1e-19, 0.0, 1e-18, 0.0, 1e-19, 0.0, 3e-18,
         )),
-        (Mob::Matching, Chem::Dilute) => MobilityLaw::dilute(DiluteMobilityParams {
-            diffusivity: anisotropic_d(),
-            temperature: T,
-        }),
+        (Mob::Matching, Chem::Dilute | Chem::DoubleWell) => {
+            MobilityLaw::dilute(DiluteMobilityParams {
+                diffusivity: anisotropic_d(),
+                temperature: T,
+            })
+        }
         (Mob::Matching, Chem::Lattice) => MobilityLaw::lattice_gas(LatticeGasMobilityParams {
             diffusivity: anisotropic_d(),
             temperature: T,
@@ -107,6 +119,11 @@ fn law(chem: Chem, swell: Swell, stiff: Stiff, mob: Mob) -> CoupledPointLaw {
         swelling,
         chemical,
         mobility,
+        // An anisotropic gradient energy in every case (J·m⁵/mol², invented scale).
+        gradient: GradientEnergy::tensor(Matrix3::new(
+            3e-18, 1e-18, 0.0, 1e-18, 2e-18, 4e-19, 0.0, 4e-19, 1e-18,
+        ))
+        .unwrap(),
     })
     .unwrap()
 }
@@ -116,6 +133,7 @@ fn input(c: f64) -> PointInput {
         strain: Voigt::new(1.2e-3, -4.0e-4, 7.0e-4, 3.0e-4, -2.0e-4, 5.0e-4),
         c,
         grad_mu: Vector3::new(2.0e5, -7.0e4, 3.0e4),
+        grad_c: Vector3::new(3.0e8, -1.0e8, 2.0e8),
     }
 }
 
@@ -150,7 +168,7 @@ fn plane_stress(law: &CoupledPointLaw) -> CoupledPointLaw {
 /// adding a law; common practice, no source).
 #[test]
 fn every_tangent_block_matches_central_differences() {
-    let chems = [Chem::Dilute, Chem::Lattice];
+    let chems = [Chem::Dilute, Chem::Lattice, Chem::DoubleWell];
     let swells = [Swell::Isotropic, Swell::Tensor];
     let stiffs = [Stiff::Constant, Stiff::LinearYoung];
     let mobs = [Mob::Matching, Mob::Constant];
@@ -170,7 +188,7 @@ fn every_tangent_block_matches_central_differences() {
             }
         }
     }
-    assert_eq!(n_cases, 64);
+    assert_eq!(n_cases, 96);
 }
 
 /// Plane stress through the condensed stiffness equals the 3D law at the out-of-plane strain
@@ -220,7 +238,7 @@ fn plane_stress_equals_3d_with_free_out_of_plane_strain() {
 fn check_case(law: &CoupledPointLaw, c: f64, case: &str) {
     let base = input(c);
     let out = eval(law, &base);
-    let psi = |o: &PointOutput| o.elastic_energy + o.chemical_energy;
+    let psi = |o: &PointOutput| o.elastic_energy + o.chemical_energy + o.gradient_energy;
 
     // Concentration derivatives.
     let hc = 1e-4 * c;
@@ -302,6 +320,37 @@ fn check_case(law: &CoupledPointLaw, c: f64, case: &str) {
         case,
     );
     assert_eq!(out.dflux_dgrad_mu, -out.mobility, "{case}");
+
+    // Concentration-gradient derivatives: κ grad c = dψ/d(grad c), κ = d(κ grad c)/d(grad c).
+    let hgc = 1e2;
+    let mut fd_dk_dg = [0.0; 9];
+    let mut fd_psi_dg = [0.0; 3];
+    for k in 0..3 {
+        let mut p = base;
+        p.grad_c[k] += hgc;
+        let mut q = base;
+        q.grad_c[k] -= hgc;
+        let (op, oq) = (eval(law, &p), eval(law, &q));
+        let col = (op.kappa_grad_c - oq.kappa_grad_c) / (2.0 * hgc);
+        fd_dk_dg[3 * k..3 * k + 3].copy_from_slice(col.as_slice());
+        // The other energies do not depend on grad c (asserted), so difference the gradient
+        // energy alone: the total is 10⁷ times larger and would drown the difference.
+        fd_psi_dg[k] = (op.gradient_energy - oq.gradient_energy) / (2.0 * hgc);
+        assert_eq!(
+            (op.elastic_energy, op.chemical_energy),
+            (out.elastic_energy, out.chemical_energy),
+            "{case}"
+        );
+        assert_eq!(op.mu_local, out.mu_local, "{case}");
+        assert_eq!(op.stress, out.stress, "{case}");
+    }
+    assert_block(
+        "kappa grad c = dpsi/dgrad_c",
+        &fd_psi_dg,
+        out.kappa_grad_c.as_slice(),
+        case,
+    );
+    assert_block("kappa", &fd_dk_dg, out.kappa.as_slice(), case);
 }
 
 /// Strain that produces the stress `stress` at concentration `c` for this law, built from the
@@ -313,6 +362,7 @@ fn strain_for_stress(law: &CoupledPointLaw, stress: &Voigt, c: f64) -> Voigt {
             strain: Voigt::zeros(),
             c,
             grad_mu: Vector3::zeros(),
+            grad_c: Default::default(),
         },
     );
     let compliance = zero.dstress_dstrain.try_inverse().unwrap();
@@ -362,6 +412,7 @@ fn flux_is_fick_under_uniform_stress() {
                     strain,
                     c,
                     grad_mu: Vector3::zeros(),
+                    grad_c: Default::default(),
                 },
             );
             assert!((o.stress - stress).amax() < 1e-6 * stress.amax());
@@ -379,6 +430,7 @@ fn flux_is_fick_under_uniform_stress() {
                 strain,
                 c: c0,
                 grad_mu,
+                grad_c: Default::default(),
             },
         )
         .flux;
@@ -432,6 +484,7 @@ fn equilibrium_concentration_under_hydrostatic_stress() {
                     strain: strain_for_stress(&law, &Voigt::zeros(), c0),
                     c: c0,
                     grad_mu: Vector3::zeros(),
+                    grad_c: Default::default(),
                 },
             );
             let stressed = eval(
@@ -440,6 +493,7 @@ fn equilibrium_concentration_under_hydrostatic_stress() {
                     strain: strain_for_stress(&law, &stress, c),
                     c,
                     grad_mu: Vector3::zeros(),
+                    grad_c: Default::default(),
                 },
             );
             assert!((hydrostatic(&stressed.stress) - sigma_h).abs() < 1e-6 * sigma_h.abs());

@@ -3,7 +3,8 @@
 //!
 //! * momentum:  `R_u,a = ∫ B_aᵀ σ(ε, c) dV`
 //! * mass:      `R_c,a = ∫ N_a (ċ − s) dV − ∫ grad N_a · J dV`, `J = −M(c) grad μ`
-//! * potential: `R_μ,a = ∫ N_a (μ − μ_local(ε, c)) dV`
+//! * potential: `R_μ,a = ∫ N_a (μ − μ_local(ε, c)) dV − ∫ grad N_a · κ grad c dV`
+//!   (the gradient-energy term of phase separation; absent when `κ = 0`)
 //!
 //! with the rate `ċ ≈ a0 c + h` supplied by the time integrator.
 //!
@@ -114,11 +115,12 @@ impl LawMap {
         &self.law_of_cell
     }
 
-    /// Highest temperature of the chemical laws (the scale `RT` of potentials).
-    pub fn max_temperature(&self) -> f64 {
+    /// Largest scale of chemical-potential differences over the chemical laws, in J/mol
+    /// (`RT` for the laws with a temperature; see `ChemicalLaw::potential_scale`).
+    pub fn potential_scale(&self) -> f64 {
         self.laws
             .iter()
-            .map(|l| l.parts().chemical.temperature())
+            .map(|l| l.parts().chemical.potential_scale())
             .fold(0.0, f64::max)
     }
 }
@@ -198,6 +200,8 @@ impl CellKernel for CoupledKernel<'_> {
             mut matrix,
             mut vector,
         } = out;
+        let law = self.laws.law(input.id);
+        let has_gradient = !law.parts().gradient.is_zero();
         for q in 0..cv.n_points() {
             let w = cv.jxw[q];
             let r = cv.points[q][0];
@@ -214,10 +218,21 @@ impl CellKernel for CoupledKernel<'_> {
                     grad_mu[d] += gm[a][d] * s.mu[a];
                 }
             }
-            let p = self
-                .laws
-                .law(input.id)
-                .evaluate(&PointInput { strain, c, grad_mu })
+            let mut grad_c = Vector3::zeros();
+            if has_gradient {
+                for a in 0..ncn {
+                    for d in 0..3 {
+                        grad_c[d] += gc[a][d] * s.c[a];
+                    }
+                }
+            }
+            let p = law
+                .evaluate(&PointInput {
+                    strain,
+                    c,
+                    grad_mu,
+                    grad_c,
+                })
                 .map_err(|source| CoupledError::Range {
                     cell: input.id,
                     point: q,
@@ -238,8 +253,10 @@ impl CellKernel for CoupledKernel<'_> {
                     fe[rc.start + a] += (vc[a] * (c_dot - src) - gj) * w;
                 }
                 let g = self.potential_source.map_or(0.0, |f| f(cv.points[q]));
+                let kg = p.kappa_grad_c;
                 for a in 0..nmn {
-                    fe[rm.start + a] += vm[a] * (mu - p.mu_local - g) * w;
+                    let gk = gm[a][0] * kg[0] + gm[a][1] * kg[1] + gm[a][2] * kg[2];
+                    fe[rm.start + a] += (vm[a] * (mu - p.mu_local - g) - gk) * w;
                 }
             }
             if let Some(ke) = matrix.as_deref_mut() {
@@ -295,6 +312,15 @@ impl CellKernel for CoupledKernel<'_> {
                     }
                     for b in 0..ncn {
                         ke[at(row, rc.start + b)] -= vm[a] * p.dmu_dc * vc[b] * w;
+                    }
+                    if has_gradient {
+                        // −grad N_a · κ · grad N_b
+                        let g = Vector3::new(gm[a][0], gm[a][1], gm[a][2]);
+                        let gk = p.kappa.transpose() * g;
+                        for b in 0..ncn {
+                            let v = gk[0] * gc[b][0] + gk[1] * gc[b][1] + gk[2] * gc[b][2];
+                            ke[at(row, rc.start + b)] -= v * w;
+                        }
                     }
                     for b in 0..nmn {
                         ke[at(row, rm.start + b)] += vm[a] * vm[b] * w;

@@ -86,6 +86,14 @@ pub struct CoupledIntegrals {
     pub elastic_energy: f64,
     /// Chemical free energy `∫ ψ_chem(c) dV` in J.
     pub chemical_energy: f64,
+    /// Gradient energy `∫ ½ grad c · κ grad c dV` in J.
+    pub gradient_energy: f64,
+    /// `∫ |grad c| dV` in mol/m (per unit thickness in 2D: mol/m²): across a diffuse interface
+    /// it integrates to the jump of c times the interface area, so divided by the jump it
+    /// measures the interface area (length in 2D).
+    pub gradient_norm: f64,
+    /// Volume where `c` exceeds its mean `amount / volume` (quadrature points counted), in m³.
+    pub volume_above_mean: f64,
 }
 
 /// Nodal stress and flux by the projection of [`crate::recovery`]: every cell evaluates the
@@ -134,9 +142,14 @@ pub fn recover_coupled_nodal(
                 &local.u,
                 nc,
             );
-            let (c, grad_mu) = local.scalars_at(cv, q);
+            let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
             let out = law
-                .evaluate(&PointInput { strain, c, grad_mu })
+                .evaluate(&PointInput {
+                    strain,
+                    c,
+                    grad_mu,
+                    grad_c,
+                })
                 .map_err(|source| CoupledError::Range {
                     cell: id,
                     point: q,
@@ -170,7 +183,8 @@ pub fn build_nodal_invariants(stress: &[Voigt]) -> NodalInvariants {
     }
 }
 
-/// Volume, amount of species, elastic and chemical energy, integrated with the quadrature of the
+/// Volume, amount of species, elastic, chemical and gradient energy, `∫|grad c|` and the volume
+/// above the mean concentration, integrated with the quadrature of the
 /// coupled kernel ([`stiffness_degree`], weight `2πr` in axisymmetry), so that the amount agrees
 /// to round-off with the discrete mass balance of the solver.
 ///
@@ -204,18 +218,44 @@ pub fn coupled_integrals(
                 &local.u,
                 nc,
             );
-            let (c, grad_mu) = local.scalars_at(cv, q);
-            let out: PointOutput =
-                law.evaluate(&PointInput { strain, c, grad_mu })
-                    .map_err(|source| CoupledError::Range {
-                        cell: id,
-                        point: q,
-                        source,
-                    })?;
+            let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
+            let out: PointOutput = law
+                .evaluate(&PointInput {
+                    strain,
+                    c,
+                    grad_mu,
+                    grad_c,
+                })
+                .map_err(|source| CoupledError::Range {
+                    cell: id,
+                    point: q,
+                    source,
+                })?;
             sums.volume += w;
             sums.amount += c * w;
             sums.elastic_energy += out.elastic_energy * w;
             sums.chemical_energy += out.chemical_energy * w;
+            sums.gradient_energy += out.gradient_energy * w;
+            sums.gradient_norm += grad_c.norm() * w;
+        }
+    }
+    // Second pass: the volume where c exceeds its mean.
+    let mean = if sums.volume > 0.0 {
+        sums.amount / sums.volume
+    } else {
+        0.0
+    };
+    for (id, kind, nodes) in mesh.cells() {
+        let cv = cache.get(kind);
+        coords.clear();
+        coords.extend(nodes.iter().map(|&p| mesh.points[p]));
+        cv.reinit(id, &coords)?;
+        local.gather(post, id, kind);
+        for q in 0..cv.n_points() {
+            let (c, _, _) = local.scalars_at(cv, q);
+            if c > mean {
+                sums.volume_above_mean += cv.jxw[q];
+            }
         }
     }
     Ok(sums)
@@ -333,9 +373,16 @@ impl LocalFields {
     }
 
     /// Concentration and potential gradient at point `q` of `cv` (spaces `[u, c, μ]`).
-    fn scalars_at(&self, cv: &CellValues, q: usize) -> (f64, Vector3<f64>) {
+    /// Concentration, potential gradient and concentration gradient at point `q`.
+    fn scalars_at(&self, cv: &CellValues, q: usize) -> (f64, Vector3<f64>, Vector3<f64>) {
         let vc = cv.spaces[1].values(q);
         let c: f64 = vc.iter().zip(&self.c).map(|(n, c)| n * c).sum();
+        let mut grad_c = Vector3::zeros();
+        for (g, &v) in cv.spaces[1].grads(q).iter().zip(&self.c) {
+            for d in 0..3 {
+                grad_c[d] += g[d] * v;
+            }
+        }
         let gm = cv.spaces[2].grads(q);
         let mut grad_mu = Vector3::zeros();
         for (g, &m) in gm.iter().zip(&self.mu) {
@@ -343,6 +390,6 @@ impl LocalFields {
                 grad_mu[d] += g[d] * m;
             }
         }
-        (c, grad_mu)
+        (c, grad_mu, grad_c)
     }
 }

@@ -19,7 +19,8 @@ use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal, Cou
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::supports::{pin_rigid_modes, rigid_modes_left, RigidBody};
 use dilata_solve::time::{
-    AdaptiveParams, Integrator, IntegratorParams, IntegratorState, RateRule, Scheme, StepSizing,
+    AdaptiveParams, EnergyControl, Integrator, IntegratorParams, IntegratorState, RateRule, Scheme,
+    StepSizing,
 };
 use dilata_solve::{newton, NewtonParams, TransientSystem};
 
@@ -120,9 +121,15 @@ fn parallelism(threads: Option<usize>) -> Parallelism {
     }
 }
 
-/// Build the DOF map of the three fields.
+/// Build the DOF map of the three fields. Without mechanics (`body.mechanics = false`) the
+/// displacement field has no components, hence no DOFs: every loop over its components is
+/// empty and the strain is zero.
 pub fn build_dofs(model: &Model) -> (DofMap, CoupledFields) {
-    let dim = model.mesh.dim;
+    let dim = if model.scenario.body.mechanics {
+        model.mesh.dim
+    } else {
+        0
+    };
     let dofs = DofMap::build(
         &model.mesh,
         &[
@@ -147,6 +154,9 @@ fn plan_pins(
     fields: CoupledFields,
 ) -> Result<Vec<Vec<(usize, usize)>>, RunError> {
     let mut all = Vec::new();
+    if !model.scenario.body.mechanics {
+        return Ok(vec![Vec::new(); model.stages.len()]);
+    }
     for plan in &model.stages {
         let setup = build_stage_setup(plan, &model.mesh, dofs, fields, 0.0, &[]);
         let body = RigidBody {
@@ -664,8 +674,23 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
         newton: newton_params,
         cut_factor: 0.25,
         dt_min: min_step,
+        energy: (time.reject_energy_rise || time.max_energy_change.is_some()).then_some(
+            EnergyControl {
+                allowance: if time.reject_energy_rise {
+                    ENERGY_ROUND_OFF
+                } else {
+                    f64::INFINITY
+                },
+                max_change: time.max_energy_change,
+            },
+        ),
     }
 }
+
+/// Relative rise of the total free energy tolerated by `reject_energy_rise`: the round-off of
+/// summing the energy over the quadrature points and of the Newton tolerance (a rise below it
+/// is not a rise the scheme can be blamed for; common practice, no source).
+pub const ENERGY_ROUND_OFF: f64 = 1e-12;
 
 /// The symmetric-form solver or the direct LU (AMD in 2D, nested dissection in 3D), or GMRES
 /// with ILU(0).
@@ -761,16 +786,27 @@ fn derive(model: &Model, problem: &CoupledProblem<'_>, x: &[f64]) -> Result<Deri
     let peak = |f: fn(&dilata_material::elastic::Voigt) -> f64| {
         nodal.stress.iter().map(f).fold(f64::NEG_INFINITY, f64::max)
     };
+    let c_min = cs.iter().copied().fold(f64::INFINITY, f64::min);
+    let c_max = cs.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let interface_measure = if c_max > c_min {
+        ints.gradient_norm / (c_max - c_min)
+    } else {
+        0.0
+    };
     let row = HistoryRow {
         amount: ints.amount,
         c_mean: ints.amount / ints.volume,
-        c_min: cs.iter().copied().fold(f64::INFINITY, f64::min),
-        c_max: cs.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+        c_min,
+        c_max,
         peak_hydrostatic: peak(hydrostatic),
         peak_principal: peak(max_principal),
         peak_von_mises: peak(von_mises),
         elastic_energy: ints.elastic_energy,
         chemical_energy: ints.chemical_energy,
+        gradient_energy: ints.gradient_energy,
+        free_energy: ints.elastic_energy + ints.chemical_energy + ints.gradient_energy,
+        fraction_above_mean: ints.volume_above_mean / ints.volume,
+        interface_measure,
         ..HistoryRow::default()
     };
     Ok(Derived {

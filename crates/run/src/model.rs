@@ -8,12 +8,15 @@ use std::path::{Path, PathBuf};
 
 use dilata_fem::GeometryMode;
 use dilata_io::scenario::{
-    Amount, BoundarySpec, Element, FreeEnergy, Geometry, Located, Material, MobilityKind,
+    Amount, BoundarySpec, Element, FreeEnergy, Geometry, Located, Material, MobilityKind, Noise,
     NumberOrFormula, ScalarOrTensor, Scenario, ScenarioError, Shape, StopRule,
 };
-use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams, LatticeGasParams};
+use dilata_material::chemical::{
+    ChemicalLaw, DoubleWellParams, IdealDiluteParams, LatticeGasParams,
+};
 use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
 use dilata_material::elastic::{Isotropic, Stiffness, Voigt};
+use dilata_material::gradient::GradientEnergy;
 use dilata_material::mobility::{
     Diffusivity, DiluteMobilityParams, LatticeGasMobilityParams, MobilityLaw,
 };
@@ -359,17 +362,12 @@ fn tensor(v: &ScalarOrTensor) -> Matrix3<f64> {
     }
 }
 
-/// The point law of one material table.
-fn build_law(
-    m: &Located<Material>,
+/// Stiffness and swelling of a material (body with mechanics).
+fn mechanical_laws(
+    mat: &Material,
     mode: GeometryMode,
-    src: Source<'_>,
-) -> Result<CoupledPointLaw, RunError> {
-    let span = m.span();
-    let mat = m.get_ref();
-    let fail = |msg: String| {
-        RunError::Scenario(src.error(span.clone(), format!("material '{}': {msg}", mat.name)))
-    };
+    fail: &dyn Fn(String) -> RunError,
+) -> Result<(StiffnessLaw, SwellingLaw), RunError> {
     let param = |e: &dyn std::fmt::Display| fail(e.to_string());
     // Elasticity.
     let stiffness = match (
@@ -446,6 +444,57 @@ fn build_law(
         }
     }
     .map_err(|e| param(&e))?;
+    Ok((stiffness, swelling))
+}
+
+/// The point law of one material table.
+fn build_law(
+    m: &Located<Material>,
+    mode: GeometryMode,
+    mechanics: bool,
+    src: Source<'_>,
+) -> Result<CoupledPointLaw, RunError> {
+    let span = m.span();
+    let mat = m.get_ref();
+    let fail = |msg: String| {
+        RunError::Scenario(src.error(span.clone(), format!("material '{}': {msg}", mat.name)))
+    };
+    let param = |e: &dyn std::fmt::Display| fail(e.to_string());
+    let (stiffness, swelling) = if mechanics {
+        mechanical_laws(mat, mode, &fail)?
+    } else {
+        let mechanical = [
+            ("young_modulus", mat.young_modulus.is_some()),
+            ("poisson_ratio", mat.poisson_ratio.is_some()),
+            ("bulk_modulus", mat.bulk_modulus.is_some()),
+            ("shear_modulus", mat.shear_modulus.is_some()),
+            ("stiffness", mat.stiffness.is_some()),
+            ("young_modulus_full", mat.young_modulus_full.is_some()),
+            ("partial_molar_volume", mat.partial_molar_volume.is_some()),
+            ("expansion", mat.expansion.is_some()),
+        ];
+        let given: Vec<&str> = mechanical
+            .iter()
+            .filter(|(_, set)| *set)
+            .map(|(k, _)| *k)
+            .collect();
+        if !given.is_empty() {
+            return Err(fail(format!(
+                "{} have no effect with body.mechanics = false; remove them",
+                given.join(", ")
+            )));
+        }
+        // No displacement field: the strain is identically zero, and without swelling the
+        // stress and its potential vanish whatever the stiffness (a unit one is used).
+        (
+            StiffnessLaw::isotropic(Isotropic::new(1.0, 0.0).map_err(|e| param(&e))?),
+            SwellingLaw::isotropic(IsotropicSwellingParams {
+                partial_molar_volume: 0.0,
+                c_ref: 0.0,
+            })
+            .map_err(|e| param(&e))?,
+        )
+    };
     // Chemistry.
     let temperature = mat.temperature;
     let chemical = match mat.free_energy {
@@ -469,12 +518,41 @@ fn build_law(
                 .ok_or_else(|| fail("free_energy = \"lattice\" needs max_concentration".into()))?,
             interaction: mat.interaction,
         }),
+        FreeEnergy::DoubleWell => {
+            if mat.interaction != 0.0 {
+                return Err(fail("interaction needs free_energy = \"lattice\"".into()));
+            }
+            let [c_a, c_b] = mat.well_concentrations.ok_or_else(|| {
+                fail("free_energy = \"double_well\" needs well_concentrations = [c_a, c_b]".into())
+            })?;
+            ChemicalLaw::double_well(DoubleWellParams {
+                height: mat.well_height.ok_or_else(|| {
+                    fail("free_energy = \"double_well\" needs well_height".into())
+                })?,
+                c_a,
+                c_b,
+            })
+        }
+    }
+    .map_err(|e| param(&e))?;
+    if mat.free_energy != FreeEnergy::DoubleWell
+        && (mat.well_height.is_some() || mat.well_concentrations.is_some())
+    {
+        return Err(fail(
+            "well_height and well_concentrations need free_energy = \"double_well\"".into(),
+        ));
+    }
+    let gradient = match &mat.gradient_energy {
+        None => Ok(GradientEnergy::none()),
+        Some(ScalarOrTensor::Scalar(k)) => GradientEnergy::isotropic(*k),
+        Some(t) => GradientEnergy::tensor(tensor(t)),
     }
     .map_err(|e| param(&e))?;
     // Transport.
     let kind = mat.mobility.unwrap_or(match mat.free_energy {
         FreeEnergy::Dilute => MobilityKind::Dilute,
         FreeEnergy::Lattice => MobilityKind::Lattice,
+        FreeEnergy::DoubleWell => MobilityKind::Constant,
     });
     let diffusivity = || -> Result<Diffusivity, RunError> {
         let d = mat
@@ -511,6 +589,7 @@ fn build_law(
         swelling,
         chemical,
         mobility,
+        gradient,
     })
     .map_err(|e| param(&e))
 }
@@ -530,7 +609,7 @@ fn build_laws(
     let mut names = Vec::new();
     let mut fill_rest = None;
     for (i, m) in scenario.material.iter().enumerate() {
-        laws.push(build_law(m, mode, src)?);
+        laws.push(build_law(m, mode, scenario.body.mechanics, src)?);
         names.push(m.get_ref().name.clone());
         if m.get_ref().zones.is_empty() {
             if fill_rest.is_some() {
@@ -597,6 +676,31 @@ pub(crate) fn list<'a>(names: impl Iterator<Item = &'a String>) -> String {
     }
 }
 
+/// The SplitMix64 generator (Steele, Lea & Flood, "Fast splittable pseudorandom number
+/// generators", OOPSLA 2014; constants as published there, from memory): small, fast, and its
+/// sequence for a seed is fixed by this code alone, so initial noise is reproducible across
+/// platforms and versions of any dependency.
+struct SplitMix64(u64);
+
+impl SplitMix64 {
+    fn new(seed: u64) -> Self {
+        SplitMix64(seed)
+    }
+
+    fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+        z ^ (z >> 31)
+    }
+
+    /// Uniform in `[0, 1)` from the top 53 bits.
+    fn next_unit(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
+    }
+}
+
 fn build_initial(scenario: &Scenario, mesh: &Mesh, src: Source<'_>) -> Result<Vec<f64>, RunError> {
     let eval_all = |value: &Located<NumberOrFormula>,
                     nodes: &mut dyn Iterator<Item = usize>,
@@ -641,6 +745,19 @@ fn build_initial(scenario: &Scenario, mesh: &Mesh, src: Source<'_>) -> Result<Ve
         nodes.dedup();
         eval_all(value, &mut nodes.into_iter(), &mut c)?;
     }
+    if let Some(noise) = &init.noise {
+        let Noise { amplitude, seed } = *noise.get_ref();
+        if !(amplitude >= 0.0 && amplitude.is_finite()) {
+            return Err(RunError::Scenario(src.error(
+                noise.span(),
+                format!("initial.noise: amplitude = {amplitude} must be a non-negative number"),
+            )));
+        }
+        let mut rng = SplitMix64::new(seed);
+        for v in &mut c {
+            *v += amplitude * (2.0 * rng.next_unit() - 1.0);
+        }
+    }
     if let Some(n) = c.iter().position(|v| !v.is_finite()) {
         return Err(RunError::Scenario(src.error(
             init.concentration.span(),
@@ -659,6 +776,7 @@ fn check_time(scenario: &Scenario, src: Source<'_>) -> Result<(), RunError> {
         ("time.max_step", t.max_step),
         ("time.tolerance", Some(t.tolerance)),
         ("time.absolute_tolerance", t.absolute_tolerance),
+        ("time.max_energy_change", t.max_energy_change),
         ("output.every", scenario.output.every),
         ("output.checkpoint_every", scenario.output.checkpoint_every),
         ("output.checkpoint_wall", scenario.output.checkpoint_wall),
@@ -751,8 +869,15 @@ pub(crate) fn check_boundary_name(
 pub(crate) fn check_stop(
     rule: &Located<StopRule>,
     mesh: &Mesh,
+    mechanics: bool,
     src: Source<'_>,
 ) -> Result<(), RunError> {
+    if !mechanics && matches!(rule.get_ref(), StopRule::PeakHydrostaticStress { .. }) {
+        return Err(RunError::Scenario(src.error(
+            rule.span(),
+            "a stop rule on the hydrostatic stress needs body.mechanics = true",
+        )));
+    }
     if let StopRule::BoundaryConcentration { on, .. } = rule.get_ref() {
         if !mesh.boundaries.contains_key(on) {
             return Err(RunError::Scenario(src.error(
@@ -776,4 +901,28 @@ pub fn material_table(model: &Model) -> BTreeMap<String, usize> {
             .or_insert(0) += 1;
     }
     counts
+}
+
+#[cfg(test)]
+mod tests {
+    use super::SplitMix64;
+    use rand_xoshiro::rand_core::{RngCore, SeedableRng};
+
+    /// The initial-noise generator is SplitMix64 bit for bit: its sequence equals the one of
+    /// the general-purpose implementation in the `rand_xoshiro` crate (0.6) for several seeds,
+    /// and the unit draws lie in [0, 1).
+    #[test]
+    fn noise_generator_matches_reference_splitmix64() {
+        for seed in [0u64, 1, 42, 0x1234_5678_9abc_def0, u64::MAX] {
+            let mut ours = SplitMix64::new(seed);
+            let mut reference = rand_xoshiro::SplitMix64::seed_from_u64(seed);
+            for _ in 0..1000 {
+                assert_eq!(ours.next_u64(), reference.next_u64(), "seed {seed}");
+            }
+            let mut unit = SplitMix64::new(seed);
+            assert!((0..1000)
+                .map(|_| unit.next_unit())
+                .all(|u| (0.0..1.0).contains(&u)));
+        }
+    }
 }

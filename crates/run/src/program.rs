@@ -93,13 +93,13 @@ pub(crate) fn build_stage(
         )));
     }
     if let Some(rule) = &s.stop {
-        check_stop(rule, mesh, src)?;
+        check_stop(rule, mesh, scenario.body.mechanics, src)?;
     }
     let mut conditions = Vec::new();
     // (boundary, class) pairs already used, to refuse two conditions on one quantity.
     let mut used: Vec<(String, String, std::ops::Range<usize>)> = Vec::new();
     for spec in scenario.boundary.iter().chain(&s.boundary) {
-        for (class, cond) in resolve(spec, mesh, orders, src)? {
+        for (class, cond) in resolve(spec, mesh, orders, scenario.body.mechanics, src)? {
             let name = spec.get_ref().on.get_ref().clone();
             if let Some((_, _, first)) = used.iter().find(|(b, c, _)| *b == name && *c == class) {
                 let (line, _) = dilata_io::scenario::line_column(src.text, first.start);
@@ -129,6 +129,7 @@ fn resolve(
     spec: &Located<BoundarySpec>,
     mesh: &Mesh,
     orders: [usize; 3],
+    mechanics: bool,
     src: Source<'_>,
 ) -> Result<Vec<(String, Condition)>, RunError> {
     let b = spec.get_ref();
@@ -137,6 +138,27 @@ fn resolve(
     let name = b.on.get_ref().clone();
     let fail =
         |m: String| RunError::Scenario(src.error(span.clone(), format!("boundary '{name}': {m}")));
+    if !mechanics {
+        let mechanical = [
+            ("u_x", b.u_x.is_some()),
+            ("u_y", b.u_y.is_some()),
+            ("u_z", b.u_z.is_some()),
+            ("symmetry", b.symmetry.is_some()),
+            ("traction", b.traction.is_some()),
+            ("pressure", b.pressure.is_some()),
+        ];
+        let given: Vec<&str> = mechanical
+            .iter()
+            .filter(|(_, set)| *set)
+            .map(|(k, _)| *k)
+            .collect();
+        if !given.is_empty() {
+            return Err(fail(format!(
+                "{} need a displacement field, but body.mechanics = false",
+                given.join(", ")
+            )));
+        }
+    }
     let mut out = Vec::new();
     let mut push = |class: &str, kind: ConditionKind| {
         out.push((

@@ -18,7 +18,7 @@ use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
 use dilata_mesh::Mesh;
 
 /// Columns of `history.csv`, in order (documented in docs/scenario.md).
-pub const HISTORY_COLUMNS: [&str; 18] = [
+pub const HISTORY_COLUMNS: [&str; 22] = [
     "time_s",
     "step",
     "stage",
@@ -37,6 +37,10 @@ pub const HISTORY_COLUMNS: [&str; 18] = [
     "peak_von_mises_stress_pa",
     "elastic_energy_j",
     "chemical_energy_j",
+    "gradient_energy_j",
+    "free_energy_j",
+    "fraction_above_mean",
+    "interface_measure",
 ];
 
 /// One row of the history.
@@ -60,6 +64,15 @@ pub struct HistoryRow {
     pub peak_von_mises: f64,
     pub elastic_energy: f64,
     pub chemical_energy: f64,
+    /// `∫ ½ grad c · κ grad c dV` in J.
+    pub gradient_energy: f64,
+    /// Total free energy: elastic + chemical + gradient, in J.
+    pub free_energy: f64,
+    /// Volume fraction where c exceeds its mean.
+    pub fraction_above_mean: f64,
+    /// `∫ |grad c| dV / (c_max − c_min)`: the interface area (3D, axisymmetric) or length per
+    /// unit thickness (plane models) once the phases have separated; 0 for a uniform field.
+    pub interface_measure: f64,
 }
 
 fn io_err(path: &Path, operation: &'static str) -> impl FnOnce(std::io::Error) -> IoError {
@@ -158,7 +171,7 @@ impl History {
     /// error, a diagnostic, with 7.
     pub fn append(&mut self, r: &HistoryRow) -> Result<(), IoError> {
         let line = format!(
-            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e}",
+            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e}",
             r.time,
             r.step,
             r.stage,
@@ -177,6 +190,10 @@ impl History {
             r.peak_von_mises,
             r.elastic_energy,
             r.chemical_energy,
+            r.gradient_energy,
+            r.free_energy,
+            r.fraction_above_mean,
+            r.interface_measure,
         );
         self.0.line(&line)
     }
@@ -320,20 +337,27 @@ pub fn write_snapshot(
         .iter()
         .flat_map(|f| f[..mesh.dim].iter().copied())
         .collect();
-    let points = vec![
-        FieldData::new("u", FieldKind::Vector, snap.u),
-        FieldData::new("c", FieldKind::Scalar, snap.c),
-        FieldData::new("mu", FieldKind::Scalar, snap.mu),
-        FieldData::new("stress", FieldKind::SymTensor, stress),
-        FieldData::new("hydrostatic_stress", FieldKind::Scalar, scalar(hydrostatic)),
-        FieldData::new("von_mises_stress", FieldKind::Scalar, scalar(von_mises)),
-        FieldData::new(
-            "max_principal_stress",
-            FieldKind::Scalar,
-            scalar(max_principal),
-        ),
-        FieldData::new("flux", FieldKind::Vector, flux),
-    ];
+    // A body without mechanics (no displacement components) has no u and no stress arrays.
+    let mechanics = !snap.u.is_empty();
+    let mut points = Vec::new();
+    if mechanics {
+        points.push(FieldData::new("u", FieldKind::Vector, snap.u));
+    }
+    points.push(FieldData::new("c", FieldKind::Scalar, snap.c));
+    points.push(FieldData::new("mu", FieldKind::Scalar, snap.mu));
+    if mechanics {
+        points.extend([
+            FieldData::new("stress", FieldKind::SymTensor, stress),
+            FieldData::new("hydrostatic_stress", FieldKind::Scalar, scalar(hydrostatic)),
+            FieldData::new("von_mises_stress", FieldKind::Scalar, scalar(von_mises)),
+            FieldData::new(
+                "max_principal_stress",
+                FieldKind::Scalar,
+                scalar(max_principal),
+            ),
+        ]);
+    }
+    points.push(FieldData::new("flux", FieldKind::Vector, flux));
     let cells = vec![FieldData::new(
         "material",
         FieldKind::Scalar,

@@ -18,6 +18,7 @@ use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{
     CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
 };
+use dilata_physics::coupled_post::{coupled_integrals, CoupledPost};
 use dilata_physics::norms::field_integral;
 use dilata_physics::poisson::PoissonKernel;
 
@@ -401,8 +402,8 @@ impl DiscreteSystem for CoupledProblem<'_> {
 
     /// Floors of the step test: the body's size for displacements (a correction of 1e-12 of the
     /// body size is negligible), none for concentrations (they are positive and of their own
-    /// scale), and `RT` for the potential when the chemical law has a temperature (potential
-    /// differences matter on the scale of the thermal energy).
+    /// scale), and the chemical laws' potential scale for the potential (`RT` when they have a
+    /// temperature: potential differences matter on the scale of the thermal energy).
     fn block_scales(&self) -> Vec<f64> {
         let mut lo = [f64::INFINITY; 3];
         let mut hi = [f64::NEG_INFINITY; 3];
@@ -413,8 +414,7 @@ impl DiscreteSystem for CoupledProblem<'_> {
             }
         }
         let size = (0..3).map(|d| (hi[d] - lo[d]).max(0.0)).fold(0.0, f64::max);
-        let rt = dilata_material::chemical::GAS_CONSTANT * self.laws.max_temperature();
-        vec![size, 0.0, rt]
+        vec![size, 0.0, self.laws.potential_scale()]
     }
 
     fn reuse_jacobian(&self) -> bool {
@@ -494,6 +494,21 @@ impl TransientSystem for CoupledProblem<'_> {
 
     fn is_dynamic(&self, i: usize) -> bool {
         self.dofs.field_range(self.fields.c).contains(&i)
+    }
+
+    /// Elastic + chemical + gradient energy of the body (`coupled_integrals`); `None` when a
+    /// quadrature point is outside its law's range (the step is then rejected elsewhere).
+    fn free_energy(&self, x: &[f64]) -> Option<f64> {
+        let post = CoupledPost {
+            dofs: &self.dofs,
+            fields: self.fields,
+            mode: self.mode,
+            laws: &self.laws,
+            solution: x,
+        };
+        coupled_integrals(self.mesh, &post)
+            .ok()
+            .map(|i| i.elastic_energy + i.chemical_energy + i.gradient_energy)
     }
 
     /// Every nodal concentration must lie in the range of the chemical and mobility laws of

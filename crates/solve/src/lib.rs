@@ -20,6 +20,6 @@ pub mod supports;
 pub mod time;
 
 pub use time::{
-    AdaptiveParams, Integrator, IntegratorParams, RateRule, Scheme, StepError, StepReport,
-    StepSizing, TransientSystem,
+    AdaptiveParams, EnergyControl, Integrator, IntegratorParams, RateRule, Scheme, StepError,
+    StepReport, StepSizing, TransientSystem,
 };

@@ -38,6 +38,24 @@ pub trait TransientSystem: DiscreteSystem {
         let _ = x;
         Ok(())
     }
+    /// Total free energy of state `x`, for [`EnergyControl`]. Default: none (the control is
+    /// then inactive).
+    fn free_energy(&self, x: &[f64]) -> Option<f64> {
+        let _ = x;
+        None
+    }
+}
+
+/// Step control by the total free energy, for closed systems where it must not rise (phase
+/// separation with zero-flux or periodic boundaries and constant loads): a step whose energy
+/// exceeds the last accepted one by more than `allowance × |E|` is rejected and retried
+/// smaller, and so is a step whose relative energy change exceeds `max_change` (when set).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct EnergyControl {
+    /// Relative rise tolerated as round-off of the energy integral itself.
+    pub allowance: f64,
+    /// Largest relative change `|E_new − E_old| / |E_old|` of one step.
+    pub max_change: Option<f64>,
 }
 
 /// Time-stepping scheme.
@@ -93,6 +111,8 @@ pub struct IntegratorParams {
     pub cut_factor: f64,
     /// Smallest step allowed; a step that must be cut below it stops the run.
     pub dt_min: f64,
+    /// Free-energy step control (None: off).
+    pub energy: Option<EnergyControl>,
 }
 
 /// The integrator's state; cloneable so a caller can checkpoint it.
@@ -171,6 +191,9 @@ pub enum StepError {
 pub struct Integrator {
     pub params: IntegratorParams,
     pub state: IntegratorState,
+    /// Free energy of the last accepted state and its time (a cache of
+    /// `TransientSystem::free_energy`, recomputed when absent, so not part of the state).
+    energy: Option<(f64, f64)>,
 }
 
 impl Integrator {
@@ -191,6 +214,7 @@ impl Integrator {
                 n_accepted: 0,
                 n_rejected: 0,
             },
+            energy: None,
         }
     }
 
@@ -245,6 +269,38 @@ impl Integrator {
                 dt *= self.params.cut_factor;
                 continue;
             }
+            let mut energy_after = None;
+            if let Some(control) = self.params.energy {
+                let e_old = match self.energy {
+                    Some((t, e)) if t == self.state.t => Some(e),
+                    _ => system.free_energy(&self.state.x),
+                };
+                if let (Some(e_new), Some(e_old)) = (system.free_energy(&x), e_old) {
+                    let scale = e_old.abs().max(f64::MIN_POSITIVE);
+                    let change = (e_new - e_old) / scale;
+                    let verdict = if change > control.allowance {
+                        Some(format!(
+                            "free energy rose from {e_old:.9e} to {e_new:.9e} (relative {change:.2e})"
+                        ))
+                    } else {
+                        control.max_change.and_then(|m| {
+                            (change.abs() > m).then(|| {
+                                format!(
+                                    "free energy changed by {:.3e} relative, above the limit {m:e}",
+                                    change.abs()
+                                )
+                            })
+                        })
+                    };
+                    if let Some(why) = verdict {
+                        rejections.push(why);
+                        self.state.n_rejected += 1;
+                        dt *= 0.5;
+                        continue;
+                    }
+                    energy_after = Some(e_new);
+                }
+            }
             // Error estimate and step proposal.
             let (error, dt_next) = match self.params.sizing {
                 StepSizing::Fixed { dt: fixed } => (None, fixed),
@@ -272,6 +328,7 @@ impl Integrator {
             self.state.t = t_new;
             self.state.dt_next = dt_next;
             self.state.n_accepted += 1;
+            self.energy = energy_after.map(|e| (t_new, e));
             return Ok(StepReport {
                 t: t_new,
                 dt,

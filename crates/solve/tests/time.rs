@@ -123,6 +123,7 @@ fn integrate(
         newton: newton_params(),
         cut_factor: 0.25,
         dt_min: 1e-9,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
     while integ.state.t < t_end {
@@ -211,6 +212,7 @@ fn failed_steps_are_cut_and_retried_then_stop_below_minimum() {
         newton: newton_params(),
         cut_factor: 0.25,
         dt_min: 1e-3,
+        energy: None,
     };
     let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
     sys.last_t = 0.0;

@@ -90,6 +90,10 @@ pub struct Body {
     /// What to do with rigid-body modes that the displacement conditions leave free.
     #[serde(default)]
     pub rigid_modes: RigidModes,
+    /// `false`: no displacement field, no stress (pure diffusion or phase separation). The
+    /// materials then give no elastic constants and no swelling.
+    #[serde(default = "yes")]
+    pub mechanics: bool,
 }
 
 /// Handling of rigid-body modes that no displacement condition removes.
@@ -215,6 +219,8 @@ pub enum FreeEnergy {
     Dilute,
     /// Lattice gas with a maximum concentration and an optional regular-solution interaction.
     Lattice,
+    /// Double well `W (c − c_a)² (c_b − c)²` (phase separation).
+    DoubleWell,
 }
 
 /// Mobility law (default: the one matching the free energy).
@@ -271,6 +277,12 @@ pub struct Material {
     pub max_concentration: Option<f64>,
     #[serde(default)]
     pub interaction: f64,
+    /// `W` of the double well.
+    pub well_height: Option<f64>,
+    /// `[c_a, c_b]` of the double well.
+    pub well_concentrations: Option<[f64; 2]>,
+    /// Gradient-energy coefficient `κ` (scalar or tensor), none by default.
+    pub gradient_energy: Option<ScalarOrTensor>,
     // Transport.
     pub mobility: Option<MobilityKind>,
     pub diffusivity: Option<ScalarOrTensor>,
@@ -298,6 +310,18 @@ pub struct Initial {
     /// Per-zone overrides: zone name = number or formula.
     #[serde(default)]
     pub zones: std::collections::BTreeMap<String, Located<NumberOrFormula>>,
+    /// Seeded random noise added to every node after the formulas.
+    pub noise: Option<Located<Noise>>,
+}
+
+/// Uniform random noise in `[−amplitude, amplitude]`, reproducible for a seed.
+#[derive(Clone, Copy, Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Noise {
+    /// Half-width of the uniform distribution, in the units of the concentration.
+    pub amplitude: f64,
+    /// Seed of the generator (any non-negative integer).
+    pub seed: u64,
 }
 
 /// A constant or a formula.
@@ -407,6 +431,11 @@ pub struct TimeSpec {
     pub tolerance: f64,
     /// Absolute local-error tolerance in mol/m³ (default: tolerance × largest initial |c|).
     pub absolute_tolerance: Option<f64>,
+    /// Reject (and retry smaller) every step that raises the total free energy.
+    #[serde(default)]
+    pub reject_energy_rise: bool,
+    /// Largest relative change of the total free energy in one step (retried smaller above).
+    pub max_energy_change: Option<f64>,
 }
 
 fn default_tolerance() -> f64 {
@@ -423,6 +452,8 @@ impl Default for TimeSpec {
             max_step: None,
             tolerance: default_tolerance(),
             absolute_tolerance: None,
+            reject_energy_rise: false,
+            max_energy_change: None,
         }
     }
 }
