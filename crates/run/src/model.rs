@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 use dilata_fem::GeometryMode;
 use dilata_io::scenario::{
     Amount, BoundarySpec, Element, FreeEnergy, Geometry, Located, Material, MobilityKind,
-    NumberOrFormula, ScalarOrTensor, Scenario, ScenarioError, Shape, StopRule,
+    NumberOrFormula, PlaneStrainSwelling, ScalarOrTensor, Scenario, ScenarioError, Shape, StopRule,
 };
 use dilata_material::chemical::{ChemicalLaw, IdealDiluteParams, LatticeGasParams};
 use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
@@ -446,6 +446,18 @@ fn build_law(
         }
     }
     .map_err(|e| param(&e))?;
+    let swelling = match (mat.plane_strain_swelling, mode) {
+        (PlaneStrainSwelling::AllAxes, _) => swelling,
+        (PlaneStrainSwelling::InPlane, GeometryMode::PlaneStrain) => swelling.in_plane_only(),
+        (PlaneStrainSwelling::InPlane, _) => {
+            return Err(fail(
+                "plane_strain_swelling = \"in_plane\" is a plane-strain option; it needs \
+                 geometry = \"plane_strain\" (in plane stress the swelling in z is free anyway, \
+                 and in 3D and axisymmetry z is a real direction)"
+                    .into(),
+            ))
+        }
+    };
     // Chemistry.
     let temperature = mat.temperature;
     let chemical = match mat.free_energy {

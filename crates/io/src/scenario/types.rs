@@ -217,6 +217,18 @@ pub enum FreeEnergy {
     Lattice,
 }
 
+/// The two plane-strain conventions for the swelling strain (docs/theory.md §11).
+#[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum PlaneStrainSwelling {
+    /// The swelling strain acts along x, y and z; with `ε_zz = 0` its `zz` part is held and
+    /// produces `σ_zz` (a long body that would swell along its axis too).
+    #[default]
+    AllAxes,
+    /// Only the in-plane part acts (`zz`, `yz`, `xz` entries dropped): a two-dimensional misfit.
+    InPlane,
+}
+
 /// Mobility law (default: the one matching the free energy).
 #[derive(Clone, Copy, Debug, Deserialize, PartialEq, Eq)]
 #[serde(rename_all = "snake_case")]
@@ -259,6 +271,9 @@ pub struct Material {
     pub expansion: Option<[f64; 6]>,
     #[serde(default)]
     pub stress_free_concentration: f64,
+    /// Which swelling components act in plane strain (default: all three axes).
+    #[serde(default)]
+    pub plane_strain_swelling: PlaneStrainSwelling,
     // Chemistry.
     #[serde(default = "default_temperature")]
     pub temperature: f64,
