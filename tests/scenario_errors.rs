@@ -281,6 +281,14 @@ fn generated_cell_counts_match_the_generators() {
             "three_d",
             r#"{ kind = "shell_octant", inner_radius = 1.0, outer_radius = 2.0, cells = [2, 3], element = "hex8" }"#,
         ),
+        (
+            "plane_strain",
+            r#"{ kind = "inclusion_quarter_disc", inclusion_radius = 1.0, radius = 5.0, cells = [3, 4], grading = 2.0, element = "quad8" }"#,
+        ),
+        (
+            "three_d",
+            r#"{ kind = "inclusion_ball_octant", inclusion_radius = 1.0, radius = 5.0, cells = [2, 3], element = "hex8" }"#,
+        ),
     ];
     for (geometry, shape) in shapes {
         let text = format!(

@@ -20,9 +20,9 @@ use dilata_material::mobility::{
 use dilata_material::stiffness::{LinearYoungParams, StiffnessLaw};
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw, TensorSwellingParams};
 use dilata_mesh::generate::{
-    annulus_sector, ball_octant, cuboid, disc, notched_plate, quarter_disc, rectangle,
-    shell_octant, AnnulusParams, BallParams, BoxParams, DiscParams, NotchedPlateParams,
-    RectangleParams, ShellParams,
+    annulus_sector, ball_octant, cuboid, disc, inclusion_ball_octant, inclusion_quarter_disc,
+    notched_plate, quarter_disc, rectangle, shell_octant, AnnulusParams, BallParams, BoxParams,
+    DiscParams, InclusionParams, NotchedPlateParams, RectangleParams, ShellParams,
 };
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::LawMap;
@@ -258,6 +258,34 @@ fn build_mesh(scenario: &Scenario, src: Source<'_>, base: &Path) -> Result<Mesh,
                 } => ball_octant(&BallParams {
                     radius: *radius,
                     n_cells: *cells,
+                    kind: element_kind(*element),
+                }),
+                Shape::InclusionQuarterDisc {
+                    inclusion_radius,
+                    radius,
+                    cells,
+                    grading,
+                    element,
+                } => inclusion_quarter_disc(&InclusionParams {
+                    inclusion_radius: *inclusion_radius,
+                    radius: *radius,
+                    n_inclusion: cells[0],
+                    n_matrix: cells[1],
+                    grading: *grading,
+                    kind: element_kind(*element),
+                }),
+                Shape::InclusionBallOctant {
+                    inclusion_radius,
+                    radius,
+                    cells,
+                    grading,
+                    element,
+                } => inclusion_ball_octant(&InclusionParams {
+                    inclusion_radius: *inclusion_radius,
+                    radius: *radius,
+                    n_inclusion: cells[0],
+                    n_matrix: cells[1],
+                    grading: *grading,
                     kind: element_kind(*element),
                 }),
                 Shape::ShellOctant {

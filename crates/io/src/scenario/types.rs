@@ -178,6 +178,28 @@ pub enum Shape {
         cells: usize,
         element: Element,
     },
+    /// Quarter disc of `radius` with a concentric quarter-disc inclusion of `inclusion_radius`
+    /// (`cells = [inclusion, matrix]`: the inclusion's resolution as for `quarter_disc`, cells
+    /// across the matrix; `grading` > 1 refines the matrix towards the interface); zones
+    /// inclusion and matrix; boundaries outer, symmetry_x (also `axis`), symmetry_y.
+    InclusionQuarterDisc {
+        inclusion_radius: f64,
+        radius: f64,
+        cells: [usize; 2],
+        #[serde(default = "one")]
+        grading: f64,
+        element: Element,
+    },
+    /// Ball octant with a concentric spherical inclusion, as `inclusion_quarter_disc`;
+    /// boundaries outer, symmetry_x, symmetry_y, symmetry_z.
+    InclusionBallOctant {
+        inclusion_radius: f64,
+        radius: f64,
+        cells: [usize; 2],
+        #[serde(default = "one")]
+        grading: f64,
+        element: Element,
+    },
     /// Spherical-shell octant; boundaries inner, outer, symmetry_x, symmetry_y, symmetry_z.
     ShellOctant {
         inner_radius: f64,

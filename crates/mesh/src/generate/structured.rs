@@ -81,6 +81,11 @@ impl Builder {
         }
     }
 
+    /// Number of cells added so far (the id the next cell will get).
+    pub(super) fn n_cells(&self) -> usize {
+        self.n_cells
+    }
+
     /// Add every cell of `block`, creating the nodes not created by earlier blocks.
     pub(super) fn add_block(&mut self, block: &dyn Block) {
         let n = block.n_cells();
