@@ -13,9 +13,14 @@
 //! (derived for this module), so the flat-core blend is orientation-preserving whenever
 //! `a < R / sqrt(dim)`; the spherical blend has `(R - r_in) / |c| · f^(dim-1) > 0` for any
 //! `0 < r_in < R`. The other faces are the same map up to a rotation or reflection, and the
-//! parameter direction is reversed on the `-1` faces so that orientation is kept.
+//! parameter direction is reversed on the `-1` faces so that orientation is kept. A graded radial
+//! spacing replaces `s` by an increasing function of it, which keeps the sign.
+//!
+//! Rings can be stacked around one core (a solid of radius `a` inside a ring `a ≤ r ≤ R`): the
+//! outer ring's radial layers are numbered on from the inner ring's (`layer_offset`), so both
+//! name the nodes of their common sphere alike and the builder merges them.
 
-use super::structured::{Block, Builder, NodeKey, Side};
+use super::structured::{graded, Block, Builder, NodeKey, Side};
 use crate::cell::CellKind;
 use crate::mesh::Mesh;
 
@@ -144,18 +149,6 @@ pub(super) fn add_cube_sphere(builder: &mut Builder, spec: &CubeSphere) {
             builder.add_block(&CurvedBlock { spec, axis, sign });
         }
     }
-}
-
-/// Geometric radial spacing: `s(u) = (q^(n u) − 1)/(q^n − 1)` with `q = g^(1/(n−1))` per cell,
-/// so that the last of `n` cells is `g` times the first; `s(u) = u` for `g = 1`. Continuous in
-/// `u`, so mid-edge nodes follow the same map.
-pub(super) fn graded(u: f64, n: usize, grading: f64) -> f64 {
-    if (grading - 1.0).abs() < 1e-12 {
-        return u;
-    }
-    let n = n as f64;
-    let q = grading.powf(1.0 / (n - 1.0).max(1.0));
-    (q.powf(n * u) - 1.0) / (q.powf(n) - 1.0)
 }
 
 /// The square (cube) core, `x = a · c`.

@@ -223,6 +223,18 @@ impl Builder {
     }
 }
 
+/// Geometric radial spacing: `s(u) = (q^(n u) − 1)/(q^n − 1)` with `q = g^(1/(n−1))` per cell,
+/// so that the last of `n` cells is `g` times the first; `s(u) = u` for `g = 1`. Continuous and
+/// increasing in `u`, so mid-edge nodes follow the same map and orientation is kept.
+pub(super) fn graded(u: f64, n: usize, grading: f64) -> f64 {
+    if (grading - 1.0).abs() < 1e-12 {
+        return u;
+    }
+    let n = n as f64;
+    let q = grading.powf(1.0 / (n - 1.0).max(1.0));
+    (q.powf(n * u) - 1.0) / (q.powf(n) - 1.0)
+}
+
 /// Simplices of one lattice cell: two triangles per square or six tetrahedra per cube, each the
 /// path from corner `0` to corner `1…1` along one ordering of the axes (Kuhn/Freudenthal split).
 /// Every simplex is ordered so that its signed measure in lattice coordinates is positive.
