@@ -53,6 +53,13 @@ fn dilute_law(plane_stress: bool) -> CoupledPointLaw {
     CoupledPointLaw::new(parts).unwrap()
 }
 
+/// The dilute law with the swelling strain in the x–y plane only.
+fn in_plane_law() -> CoupledPointLaw {
+    let mut parts = common::dilute_parts(&host());
+    parts.swelling = parts.swelling.in_plane_only();
+    CoupledPointLaw::new(parts).unwrap()
+}
+
 fn lattice_law() -> CoupledPointLaw {
     CoupledPointLaw::new(CoupledLawParts {
         stiffness: StiffnessLaw::isotropic(Isotropic::new(E, NU).unwrap()),
@@ -203,6 +210,19 @@ fn coupled_tangent_matches_finite_differences() {
             .unwrap(),
             GeometryMode::ThreeD,
             double_well_law(),
+        ),
+        // Plane strain with the in-plane-only swelling convention (plane_strain_swelling =
+        // "in_plane").
+        (
+            rectangle(&RectangleParams {
+                origin: [0.0, 0.0],
+                lengths: [1e-6, 1e-6],
+                n_cells: [1, 1],
+                kind: CellKind::Quad8,
+            })
+            .unwrap(),
+            GeometryMode::PlaneStrain,
+            in_plane_law(),
         ),
     ];
     for (mesh, mode, law) in &cases {

@@ -281,6 +281,14 @@ fn generated_cell_counts_match_the_generators() {
             "three_d",
             r#"{ kind = "shell_octant", inner_radius = 1.0, outer_radius = 2.0, cells = [2, 3], element = "hex8" }"#,
         ),
+        (
+            "plane_strain",
+            r#"{ kind = "inclusion_quarter_disc", inclusion_radius = 1.0, radius = 5.0, cells = [3, 4], grading = 2.0, element = "quad8" }"#,
+        ),
+        (
+            "three_d",
+            r#"{ kind = "inclusion_ball_octant", inclusion_radius = 1.0, radius = 5.0, cells = [2, 3], element = "hex8" }"#,
+        ),
     ];
     for (geometry, shape) in shapes {
         let text = format!(
@@ -296,4 +304,28 @@ fn generated_cell_counts_match_the_generators() {
         );
         assert_eq!(model.mesh.n_cells() as u128, expected, "{shape}");
     }
+}
+
+/// The in-plane swelling convention is a plane-strain option: accepted there (and it drops the
+/// out-of-plane swelling entries), refused in other geometry modes with the material named.
+#[test]
+fn in_plane_swelling_needs_plane_strain() {
+    let text = with(
+        "partial_molar_volume = 3e-6",
+        "partial_molar_volume = 3e-6\nplane_strain_swelling = \"in_plane\"",
+    );
+    let model = build_model(text.clone(), "case.toml", Path::new(".")).unwrap();
+    let beta = model.laws.laws()[0].parts().swelling.expansion();
+    assert!((beta[0] - 1e-6).abs() < 1e-20 && (beta[1] - 1e-6).abs() < 1e-20);
+    assert_eq!((beta[2], beta[4], beta[5]), (0.0, 0.0, 0.0));
+    let e = error_of(&text.replace("\"plane_strain\"", "\"plane_stress\""));
+    assert!(e.contains("material 'host'"), "{e}");
+    assert!(e.contains("plane_strain_swelling"), "{e}");
+    let line = line_of(BASE, "[[material]]");
+    assert!(e.starts_with(&format!("case.toml:{line}:")), "{e}");
+    let e = error_of(&with(
+        "partial_molar_volume = 3e-6",
+        "partial_molar_volume = 3e-6\nplane_strain_swelling = \"sideways\"",
+    ));
+    assert!(e.contains("in_plane") && e.contains("all_axes"), "{e}");
 }

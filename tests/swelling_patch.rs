@@ -203,3 +203,86 @@ fn uniform_swelling_is_exact_in_every_mode_and_element() {
         }
     }
 }
+
+/// The in-plane swelling convention (`plane_strain_swelling = "in_plane"`) through the whole
+/// pipeline, plane strain, linear and quadratic cells: free, `u = ε* x` and no stress at all;
+/// clamped, `σ_xx = σ_yy = −2(λ + G) ε*` and `σ_zz = −2λ ε*`; everywhere
+/// `μ = RT ln(c/c_ref) − (Ω/3)(σ_xx + σ_yy)` (μ_mech = −σ:β with β = (Ω/3)(1, 1, 0); the same
+/// elementary thermoelasticity as above with the z expansion removed).
+#[test]
+fn in_plane_swelling_through_the_pipeline() {
+    let eps = OMEGA * DC / 3.0;
+    let material = dilata_material::elastic::Isotropic::new(E, NU).unwrap();
+    let (lambda, g) = (material.lambda(), material.shear());
+    let rt = GAS_CONSTANT * T;
+    for element in ["tri3", "quad8"] {
+        for clamped in [false, true] {
+            let label = format!("in-plane {element} clamped={clamped}");
+            let text = scenario("plane_strain", element, clamped).replacen(
+                "stress_free_concentration",
+                "plane_strain_swelling = \"in_plane\"\nstress_free_concentration",
+                1,
+            );
+            let model = build_model(text, "patch.toml", Path::new(".")).unwrap();
+            let dir = tempfile::tempdir().unwrap();
+            let summary = run(
+                &model,
+                &RunOptions {
+                    out: dir.path().to_path_buf(),
+                    threads: Some(1),
+                },
+                &mut |_| {},
+            )
+            .unwrap_or_else(|e| panic!("{label}: {e}"));
+            let (dofs, fields) = build_dofs(&model);
+            let x = &summary.final_solution;
+            let mesh = &model.mesh;
+            let u = nodal_field(mesh, &dofs, fields.u, x);
+            let mu = nodal_field(mesh, &dofs, fields.mu, x);
+            let stress = recover_coupled_nodal(
+                mesh,
+                &CoupledPost {
+                    dofs: &dofs,
+                    fields,
+                    mode: model.mode,
+                    laws: &model.laws,
+                    solution: x,
+                },
+            )
+            .unwrap()
+            .stress;
+            let (stretch, expected) = if clamped {
+                let s = -2.0 * (lambda + g) * eps;
+                (0.0, [s, s, -2.0 * lambda * eps])
+            } else {
+                (eps, [0.0; 3])
+            };
+            let scale = 2.0 * (lambda + g) * eps;
+            for node in 0..mesh.n_points() {
+                let p = mesh.points[node];
+                for d in 0..2 {
+                    let err = (u[node * 2 + d] - stretch * p[d]).abs();
+                    assert!(
+                        err <= 1e-10 * eps * 2e-6,
+                        "{label}: u at node {node}: {err:e}"
+                    );
+                }
+                let s = &stress[node];
+                for k in 0..3 {
+                    assert!(
+                        (s[k] - expected[k]).abs() <= 1e-10 * scale,
+                        "{label}: sigma[{k}] at node {node}: {} vs {}",
+                        s[k],
+                        expected[k]
+                    );
+                }
+                let mu_exact = rt * ((C0 + DC) / C0).ln() - OMEGA / 3.0 * (s[0] + s[1]);
+                assert!(
+                    (mu[node] - mu_exact).abs() <= 1e-10 * rt,
+                    "{label}: mu at node {node}: {} vs {mu_exact}",
+                    mu[node]
+                );
+            }
+        }
+    }
+}

@@ -9,6 +9,11 @@
 //! * tensor: `ε_c = β (c − c_ref)` for any expansion tensor β per unit concentration (this also
 //!   covers an in-plane-only misfit with `β_zz = 0`).
 //!
+//! [`SwellingLaw::in_plane_only`] drops the out-of-plane entries (`zz`, `yz`, `xz`) of either
+//! form: the second of the two plane-strain conventions of docs/theory.md §11 (the swelling acts
+//! in the plane only, `ε_c,zz = 0`), where the default keeps them (a long body swelling along its
+//! axis too, held at `ε_zz = 0`).
+//!
 //! Mechanics ([`mechanics`]): with `e = ε − ε_c(c)` and a possibly concentration-dependent
 //! stiffness `C(c)`, the stored energy `W = ½ e:C:e` gives
 //! * `σ = ∂W/∂ε = C e`,
@@ -82,6 +87,21 @@ impl SwellingLaw {
             expansion: params.expansion,
             c_ref: finite("c_ref", params.c_ref)?,
         })
+    }
+
+    /// The same law with the out-of-plane entries `β_zz`, `β_yz`, `β_xz` set to zero, so that
+    /// the swelling strain lies in the x–y plane. For plane strain only: in 3D and axisymmetry
+    /// the `zz` slot is a real direction (the hoop direction in axisymmetry), and in plane
+    /// stress the condensed stiffness ignores `ε_c,zz` anyway.
+    pub fn in_plane_only(&self) -> Self {
+        let mut expansion = self.expansion;
+        expansion[2] = 0.0;
+        expansion[4] = 0.0;
+        expansion[5] = 0.0;
+        SwellingLaw {
+            expansion,
+            c_ref: self.c_ref,
+        }
     }
 
     /// The expansion tensor β = dε_c/dc in m³/mol (Voigt, engineering shears).
@@ -251,12 +271,17 @@ mod tests {
 
     /// σ = ∂W/∂ε and μ_mech = ∂W/∂c by central finite differences, and the tangent blocks by
     /// central differences of σ and μ_mech, for constant and concentration-dependent stiffness,
-    /// isotropic and tensor swelling (common practice, no source).
+    /// isotropic and tensor swelling, each also in-plane only (common practice, no source).
     #[test]
     fn stress_and_potential_are_derivatives_of_energy() {
         let c = 9.0e3;
         for stiff in [constant(), softening()] {
-            for swell in [isotropic_swelling(), tensor_swelling()] {
+            for swell in [
+                isotropic_swelling(),
+                tensor_swelling(),
+                isotropic_swelling().in_plane_only(),
+                tensor_swelling().in_plane_only(),
+            ] {
                 let eps = strain();
                 let m = at(&stiff, &swell, &eps, c);
                 let hc = 1e-3 * c;
@@ -306,6 +331,42 @@ mod tests {
         // ... and by exactly the energy scaled by dE/dc / E, since C(c) = E(c) Ĉ.
         let de_over_e = (6e9 - 12e9) / 2.37e4 / (12e9 + (6e9 - 12e9) * c / 2.37e4);
         assert!((m.mu - without - de_over_e * m.energy).abs() < 1e-9 * m.mu.abs());
+    }
+
+    /// In-plane-only swelling keeps the in-plane entries and `c_ref` and zeroes `zz`, `yz`, `xz`;
+    /// under plane-strain kinematics (ε_zz = 0) with isotropic stiffness and isotropic Ω its
+    /// potential is `μ_mech = −(Ω/3)(σ_xx + σ_yy)`, where the default gives `−Ω σ_h` with the
+    /// σ_zz it produces (derived from μ_mech = −σ:β; common practice, no source).
+    #[test]
+    fn in_plane_only_drops_out_of_plane_entries() {
+        let t = tensor_swelling().in_plane_only();
+        let full = tensor_swelling();
+        assert_eq!(t.c_ref(), full.c_ref());
+        for k in [0, 1, 3] {
+            assert_eq!(t.expansion()[k], full.expansion()[k]);
+        }
+        for k in [2, 4, 5] {
+            assert_eq!(t.expansion()[k], 0.0);
+        }
+        let iso = isotropic_swelling().in_plane_only();
+        let c = C_REF + 4.0e3;
+        let plane = Voigt::new(1.0e-3, -3.0e-4, 0.0, 2.0e-4, 0.0, 0.0);
+        let m = at(&constant(), &iso, &plane, c);
+        let expected = -OMEGA / 3.0 * (m.stress[0] + m.stress[1]);
+        assert!((m.mu - expected).abs() < 1e-12 * expected.abs());
+        // Free in-plane swelling under ε_zz = 0: with the in-plane-only misfit the free strain
+        // is ε* in plane and nothing is stressed; with the default the free in-plane strain is
+        // (1 + ν) ε* and σ_zz = −E ε* remains (as in tests/swelling_patch.rs).
+        let eps_star = OMEGA / 3.0 * 4.0e3;
+        let free = Voigt::new(eps_star, eps_star, 0.0, 0.0, 0.0, 0.0);
+        assert!(at(&constant(), &iso, &free, c).stress.amax() < 1e-6);
+        let (young, nu) = (10e9, 0.3);
+        let free = free * (1.0 + nu);
+        let full = at(&constant(), &isotropic_swelling(), &free, c);
+        let expected_zz = -young * eps_star;
+        assert!((full.stress[2] - expected_zz).abs() < 1e-9 * expected_zz.abs());
+        assert!(full.stress[0].abs() < 1e-9 * expected_zz.abs());
+        assert!(full.stress[1].abs() < 1e-9 * expected_zz.abs());
     }
 
     #[test]

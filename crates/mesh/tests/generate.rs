@@ -6,9 +6,9 @@
 use std::collections::{BTreeSet, HashMap};
 
 use dilata_mesh::generate::{
-    annulus_sector, ball_octant, cuboid, disc, notched_plate, quarter_disc, rectangle,
-    shell_octant, AnnulusParams, BallParams, BoxParams, DiscParams, NotchedPlateParams,
-    RectangleParams, ShellParams,
+    annulus_sector, ball_octant, cuboid, disc, inclusion_ball_octant, inclusion_quarter_disc,
+    notched_plate, quarter_disc, rectangle, shell_octant, AnnulusParams, BallParams, BoxParams,
+    DiscParams, InclusionParams, NotchedPlateParams, RectangleParams, ShellParams,
 };
 use dilata_mesh::{CellKind, Facet, Mesh, MeshError, Shape};
 

@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 use dilata_fem::GeometryMode;
 use dilata_io::scenario::{
     Amount, BoundarySpec, Element, FreeEnergy, Geometry, Located, Material, MobilityKind, Noise,
-    NumberOrFormula, ScalarOrTensor, Scenario, ScenarioError, Shape, StopRule,
+    NumberOrFormula, PlaneStrainSwelling, ScalarOrTensor, Scenario, ScenarioError, Shape, StopRule,
 };
 use dilata_material::chemical::{
     ChemicalLaw, DoubleWellParams, IdealDiluteParams, LatticeGasParams,
@@ -23,9 +23,9 @@ use dilata_material::mobility::{
 use dilata_material::stiffness::{LinearYoungParams, StiffnessLaw};
 use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw, TensorSwellingParams};
 use dilata_mesh::generate::{
-    annulus_sector, ball_octant, cuboid, disc, notched_plate, quarter_disc, rectangle,
-    shell_octant, AnnulusParams, BallParams, BoxParams, DiscParams, NotchedPlateParams,
-    RectangleParams, ShellParams,
+    annulus_sector, ball_octant, cuboid, disc, inclusion_ball_octant, inclusion_quarter_disc,
+    notched_plate, quarter_disc, rectangle, shell_octant, AnnulusParams, BallParams, BoxParams,
+    DiscParams, InclusionParams, NotchedPlateParams, RectangleParams, ShellParams,
 };
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::LawMap;
@@ -263,6 +263,34 @@ fn build_mesh(scenario: &Scenario, src: Source<'_>, base: &Path) -> Result<Mesh,
                     n_cells: *cells,
                     kind: element_kind(*element),
                 }),
+                Shape::InclusionQuarterDisc {
+                    inclusion_radius,
+                    radius,
+                    cells,
+                    grading,
+                    element,
+                } => inclusion_quarter_disc(&InclusionParams {
+                    inclusion_radius: *inclusion_radius,
+                    radius: *radius,
+                    n_inclusion: cells[0],
+                    n_matrix: cells[1],
+                    grading: *grading,
+                    kind: element_kind(*element),
+                }),
+                Shape::InclusionBallOctant {
+                    inclusion_radius,
+                    radius,
+                    cells,
+                    grading,
+                    element,
+                } => inclusion_ball_octant(&InclusionParams {
+                    inclusion_radius: *inclusion_radius,
+                    radius: *radius,
+                    n_inclusion: cells[0],
+                    n_matrix: cells[1],
+                    grading: *grading,
+                    kind: element_kind(*element),
+                }),
                 Shape::ShellOctant {
                     inner_radius,
                     outer_radius,
@@ -444,6 +472,18 @@ fn mechanical_laws(
         }
     }
     .map_err(|e| param(&e))?;
+    let swelling = match (mat.plane_strain_swelling, mode) {
+        (PlaneStrainSwelling::AllAxes, _) => swelling,
+        (PlaneStrainSwelling::InPlane, GeometryMode::PlaneStrain) => swelling.in_plane_only(),
+        (PlaneStrainSwelling::InPlane, _) => {
+            return Err(fail(
+                "plane_strain_swelling = \"in_plane\" is a plane-strain option; it needs \
+                 geometry = \"plane_strain\" (in plane stress the swelling in z is free anyway, \
+                 and in 3D and axisymmetry z is a real direction)"
+                    .into(),
+            ))
+        }
+    };
     Ok((stiffness, swelling))
 }
 
@@ -472,6 +512,10 @@ fn build_law(
             ("young_modulus_full", mat.young_modulus_full.is_some()),
             ("partial_molar_volume", mat.partial_molar_volume.is_some()),
             ("expansion", mat.expansion.is_some()),
+            (
+                "plane_strain_swelling",
+                mat.plane_strain_swelling != PlaneStrainSwelling::AllAxes,
+            ),
         ];
         let given: Vec<&str> = mechanical
             .iter()

@@ -44,7 +44,7 @@ pub use limits::{generated_cells, MAX_GENERATED_CELLS};
 pub use located::{line_column, Located, ScenarioError};
 pub use types::{
     Amount, Body, BoundarySpec, Element, FreeEnergy, Geometry, Initial, LinearSolverName, Material,
-    MobilityKind, Noise, NumberOrFormula, Orders, OutputSpec, RigidModes, ScalarOrTensor, Scenario,
-    SchemeName, Shape, SolverSpec, Stage, StopRule, TimeSpec, TimeTable, ZoneBox,
-    DEFAULT_CHECKPOINT_WALL,
+    MobilityKind, Noise, NumberOrFormula, Orders, OutputSpec, PlaneStrainSwelling, RigidModes,
+    ScalarOrTensor, Scenario, SchemeName, Shape, SolverSpec, Stage, StopRule, TimeSpec, TimeTable,
+    ZoneBox, DEFAULT_CHECKPOINT_WALL,
 };

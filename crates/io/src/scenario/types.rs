@@ -182,6 +182,28 @@ pub enum Shape {
         cells: usize,
         element: Element,
     },
+    /// Quarter disc of `radius` with a concentric quarter-disc inclusion of `inclusion_radius`
+    /// (`cells = [inclusion, matrix]`: the inclusion's resolution as for `quarter_disc`, cells
+    /// across the matrix; `grading` > 1 refines the matrix towards the interface); zones
+    /// inclusion and matrix; boundaries outer, symmetry_x (also `axis`), symmetry_y.
+    InclusionQuarterDisc {
+        inclusion_radius: f64,
+        radius: f64,
+        cells: [usize; 2],
+        #[serde(default = "one")]
+        grading: f64,
+        element: Element,
+    },
+    /// Ball octant with a concentric spherical inclusion, as `inclusion_quarter_disc`;
+    /// boundaries outer, symmetry_x, symmetry_y, symmetry_z.
+    InclusionBallOctant {
+        inclusion_radius: f64,
+        radius: f64,
+        cells: [usize; 2],
+        #[serde(default = "one")]
+        grading: f64,
+        element: Element,
+    },
     /// Spherical-shell octant; boundaries inner, outer, symmetry_x, symmetry_y, symmetry_z.
     ShellOctant {
         inner_radius: f64,
@@ -221,6 +243,18 @@ pub enum FreeEnergy {
     Lattice,
     /// Double well `W (c − c_a)² (c_b − c)²` (phase separation).
     DoubleWell,
+}
+
+/// The two plane-strain conventions for the swelling strain (docs/theory.md §11).
+#[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum PlaneStrainSwelling {
+    /// The swelling strain acts along x, y and z; with `ε_zz = 0` its `zz` part is held and
+    /// produces `σ_zz` (a long body that would swell along its axis too).
+    #[default]
+    AllAxes,
+    /// Only the in-plane part acts (`zz`, `yz`, `xz` entries dropped): a two-dimensional misfit.
+    InPlane,
 }
 
 /// Mobility law (default: the one matching the free energy).
@@ -265,6 +299,9 @@ pub struct Material {
     pub expansion: Option<[f64; 6]>,
     #[serde(default)]
     pub stress_free_concentration: f64,
+    /// Which swelling components act in plane strain (default: all three axes).
+    #[serde(default)]
+    pub plane_strain_swelling: PlaneStrainSwelling,
     // Chemistry.
     #[serde(default = "default_temperature")]
     pub temperature: f64,

@@ -13,9 +13,14 @@
 //! (derived for this module), so the flat-core blend is orientation-preserving whenever
 //! `a < R / sqrt(dim)`; the spherical blend has `(R - r_in) / |c| · f^(dim-1) > 0` for any
 //! `0 < r_in < R`. The other faces are the same map up to a rotation or reflection, and the
-//! parameter direction is reversed on the `-1` faces so that orientation is kept.
+//! parameter direction is reversed on the `-1` faces so that orientation is kept. A graded radial
+//! spacing replaces `s` by an increasing function of it, which keeps the sign.
+//!
+//! Rings can be stacked around one core (a solid of radius `a` inside a ring `a ≤ r ≤ R`): the
+//! outer ring's radial layers are numbered on from the inner ring's (`layer_offset`), so both
+//! name the nodes of their common sphere alike and the builder merges them.
 
-use super::structured::{Block, Builder, NodeKey, Side};
+use super::structured::{graded, Block, Builder, NodeKey, Side};
 use crate::cell::CellKind;
 use crate::mesh::Mesh;
 
@@ -51,6 +56,43 @@ pub(super) struct CubeSphere {
     pub(super) n_tangential: usize,
     /// Cells from the inner face to the outer one.
     pub(super) n_radial: usize,
+    /// Ratio of the outermost to the innermost radial cell size of the curved blocks (1:
+    /// uniform; geometric sizes otherwise).
+    pub(super) grading: f64,
+    /// Radial layers (half steps) below this ring's first layer when several rings are stacked
+    /// around one core: the node keys of layer 0 are then those of the last layer of the ring
+    /// inside (0 for a single ring).
+    pub(super) layer_offset: usize,
+    /// Boundary names of the inner sphere (only for [`Inner::Sphere`]) and of the outer one;
+    /// `None` where the face is inside a stacked mesh.
+    pub(super) inner_name: Option<&'static str>,
+    pub(super) outer_name: Option<&'static str>,
+}
+
+impl CubeSphere {
+    /// A single ring (or a solid) with uniform radial cells and the default boundary names
+    /// `inner` (for a spherical hole) and `outer`.
+    pub(super) fn single(
+        dim: usize,
+        extent: Extent,
+        inner: Inner,
+        outer_radius: f64,
+        n_tangential: usize,
+        n_radial: usize,
+    ) -> Self {
+        CubeSphere {
+            dim,
+            extent,
+            inner,
+            outer_radius,
+            n_tangential,
+            n_radial,
+            grading: 1.0,
+            layer_offset: 0,
+            inner_name: Some("inner"),
+            outer_name: Some("outer"),
+        }
+    }
 }
 
 /// Which face of the core a curved block sits on.
@@ -88,6 +130,13 @@ impl CubeSphere {
 /// Build the mesh described by `spec` with cells of `kind` (already validated).
 pub(super) fn build_cube_sphere(spec: &CubeSphere, kind: CellKind) -> Mesh {
     let mut builder = Builder::new(spec.dim, kind);
+    add_cube_sphere(&mut builder, spec);
+    builder.finish()
+}
+
+/// Add the blocks of `spec` to `builder` (rings stacked around one core share their interface
+/// nodes through [`CubeSphere::layer_offset`]).
+pub(super) fn add_cube_sphere(builder: &mut Builder, spec: &CubeSphere) {
     if let Inner::Core { half_size } = spec.inner {
         builder.add_block(&CoreBlock { spec, half_size });
     }
@@ -100,7 +149,6 @@ pub(super) fn build_cube_sphere(spec: &CubeSphere, kind: CellKind) -> Mesh {
             builder.add_block(&CurvedBlock { spec, axis, sign });
         }
     }
-    builder.finish()
 }
 
 /// The square (cube) core, `x = a · c`.
@@ -147,10 +195,11 @@ struct CurvedBlock<'a> {
 impl CurvedBlock<'_> {
     /// Radial parameter `s` (0 on the inner face, 1 on the outer) of parameter `u_axis`.
     fn radial(&self, u_axis: f64) -> f64 {
-        match self.sign {
+        let u = match self.sign {
             FaceSign::Plus => u_axis,
             FaceSign::Minus => 1.0 - u_axis,
-        }
+        };
+        graded(u, self.spec.n_radial, self.spec.grading)
     }
 }
 
@@ -170,6 +219,7 @@ impl Block for CurvedBlock<'_> {
             FaceSign::Plus => (core_last, h[self.axis]),
             FaceSign::Minus => (0, radial_last - h[self.axis]),
         };
+        let layer = layer + self.spec.layer_offset;
         key[self.axis] = surface as i64;
         key[3] = layer as i64;
         key
@@ -206,11 +256,11 @@ impl Block for CurvedBlock<'_> {
                 FaceSign::Minus => Side::Min,
             };
             if side == outer_side {
-                return Some("outer");
+                return self.spec.outer_name;
             }
             return match self.spec.inner {
                 Inner::Core { .. } => None,
-                Inner::Sphere { .. } => Some("inner"),
+                Inner::Sphere { .. } => self.spec.inner_name,
             };
         }
         match side {

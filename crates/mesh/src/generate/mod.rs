@@ -1,4 +1,5 @@
-//! Mesh generators for simple shapes: rectangles, boxes, discs, annuli, ball and shell octants.
+//! Mesh generators for simple shapes: rectangles, boxes, discs, annuli, ball and shell octants,
+//! and a quarter disc or ball octant with a concentric inclusion.
 //!
 //! Every generator takes a parameter struct and returns a [`Mesh`] with one cell block, the region
 //! `domain` (all cells) and named boundaries, or [`MeshError::Generator`] saying which parameter
@@ -38,7 +39,7 @@ use crate::error::MeshError;
 use crate::mesh::Mesh;
 
 use blocks::{AnnulusBlock, BoxBlock, Closure};
-use cube_sphere::{build_cube_sphere, CubeSphere, Extent, Inner};
+use cube_sphere::{add_cube_sphere, build_cube_sphere, CubeSphere, Extent, Inner};
 use structured::Builder;
 
 /// Half-size of the square core of [`quarter_disc`] and [`disc`] as a fraction of the radius.
@@ -153,6 +154,27 @@ pub struct ShellParams {
     /// (at least 1). The shell has `3 n_angular² n_radial` cells.
     pub n_angular: usize,
     /// Hex8, Hex20 or Hex27.
+    pub kind: CellKind,
+}
+
+/// Parameters of [`inclusion_quarter_disc`] and [`inclusion_ball_octant`]: a round inclusion of
+/// radius `inclusion_radius` centred at the origin inside a concentric matrix of radius `radius`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct InclusionParams {
+    /// Radius of the inclusion, `0 < inclusion_radius < radius`.
+    pub inclusion_radius: f64,
+    /// Outer radius of the matrix.
+    pub radius: f64,
+    /// Resolution of the inclusion, as `n_cells` of [`quarter_disc`] (or [`ball_octant`]):
+    /// cells along each side of its core and radially from the core to the interface (at
+    /// least 1). It also sets the cells around the matrix (`n_cells` per curved block).
+    pub n_inclusion: usize,
+    /// Cells across the matrix from the interface to the outer surface (at least 1).
+    pub n_matrix: usize,
+    /// Ratio of the outermost to the innermost radial cell size in the matrix (1 uniform; above
+    /// 1 refines towards the interface).
+    pub grading: f64,
+    /// Quad4, Quad8 or Quad9 for the quarter disc; Hex8, Hex20 or Hex27 for the octant.
     pub kind: CellKind,
 }
 
@@ -353,16 +375,16 @@ pub fn ball_octant(params: &BallParams) -> Result<Mesh, MeshError> {
     check_positive(WHAT, "radius", params.radius)?;
     check_count(WHAT, "n_cells", params.n_cells)?;
     check_size(WHAT, &[params.n_cells; 3])?;
-    let spec = CubeSphere {
-        dim: 3,
-        extent: Extent::FirstSector,
-        inner: Inner::Core {
+    let spec = CubeSphere::single(
+        3,
+        Extent::FirstSector,
+        Inner::Core {
             half_size: BALL_CORE_FRACTION * params.radius,
         },
-        outer_radius: params.radius,
-        n_tangential: params.n_cells,
-        n_radial: params.n_cells,
-    };
+        params.radius,
+        params.n_cells,
+        params.n_cells,
+    );
     Ok(build_cube_sphere(&spec, params.kind))
 }
 
@@ -378,17 +400,117 @@ pub fn shell_octant(params: &ShellParams) -> Result<Mesh, MeshError> {
     check_count(WHAT, "n_radial", params.n_radial)?;
     check_count(WHAT, "n_angular", params.n_angular)?;
     check_size(WHAT, &[params.n_angular, params.n_angular, params.n_radial])?;
-    let spec = CubeSphere {
-        dim: 3,
-        extent: Extent::FirstSector,
-        inner: Inner::Sphere {
+    let spec = CubeSphere::single(
+        3,
+        Extent::FirstSector,
+        Inner::Sphere {
             radius: params.inner_radius,
         },
-        outer_radius: params.outer_radius,
-        n_tangential: params.n_angular,
-        n_radial: params.n_radial,
-    };
+        params.outer_radius,
+        params.n_angular,
+        params.n_radial,
+    );
     Ok(build_cube_sphere(&spec, params.kind))
+}
+
+/// Quarter disc of radius `R` with a concentric quarter-disc inclusion of radius `a`: the mesh of
+/// [`quarter_disc`] of radius `a` (core half-size `DISC_CORE_FRACTION · a`), surrounded by a
+/// ring `a ≤ r ≤ R` of two curved blocks whose cells follow the radial lines of the inclusion's
+/// blocks, graded by `grading`. Element edges lie on the circle `r = a` (quadratic mid-edge
+/// nodes too), so the inclusion is exactly the union of its cells.
+///
+/// Regions `inclusion` (`r ≤ a`, `3 n²` cells, numbered first), `matrix` (`2 n m` cells) and
+/// `domain`; boundaries `outer` (the arc `r = R`), `symmetry_x` (x = 0, also named `axis` for an
+/// r–z axisymmetric model, where the inclusion is a sphere), `symmetry_y` (y = 0). The interface
+/// is not a boundary.
+pub fn inclusion_quarter_disc(params: &InclusionParams) -> Result<Mesh, MeshError> {
+    let mut mesh = inclusion_mesh("inclusion quarter disc", 2, params)?;
+    let axis = mesh
+        .boundaries
+        .get("symmetry_x")
+        .cloned()
+        .unwrap_or_default();
+    mesh.boundaries.insert("axis".to_string(), axis);
+    Ok(mesh)
+}
+
+/// Octant of the ball of radius `R` with a concentric spherical inclusion of radius `a`: the mesh
+/// of [`ball_octant`] of radius `a`, surrounded by a shell `a ≤ |x| ≤ R` of three curved blocks,
+/// graded by `grading`; element faces lie on the sphere `|x| = a`.
+///
+/// Regions `inclusion` (`4 n³` cells, numbered first), `matrix` (`3 n² m` cells) and `domain`;
+/// boundaries `outer`, `symmetry_x`, `symmetry_y`, `symmetry_z`.
+pub fn inclusion_ball_octant(params: &InclusionParams) -> Result<Mesh, MeshError> {
+    inclusion_mesh("inclusion ball octant", 3, params)
+}
+
+fn inclusion_mesh(what: &str, dim: usize, params: &InclusionParams) -> Result<Mesh, MeshError> {
+    let (kinds, core_fraction) = if dim == 2 {
+        (&QUAD_KINDS, DISC_CORE_FRACTION)
+    } else {
+        (&HEX_KINDS, BALL_CORE_FRACTION)
+    };
+    check_kind(what, params.kind, kinds)?;
+    check_positive(what, "inclusion_radius", params.inclusion_radius)?;
+    check_positive(what, "radius", params.radius)?;
+    if params.inclusion_radius >= params.radius {
+        return Err(MeshError::Generator(format!(
+            "{what}: inclusion_radius must be smaller than radius, got inclusion_radius {} and radius {}",
+            params.inclusion_radius, params.radius
+        )));
+    }
+    check_count(what, "n_inclusion", params.n_inclusion)?;
+    check_count(what, "n_matrix", params.n_matrix)?;
+    if !(params.grading.is_finite() && params.grading > 0.0) {
+        return Err(MeshError::Generator(format!(
+            "{what}: grading must be a positive number, got {}",
+            params.grading
+        )));
+    }
+    let n = params.n_inclusion;
+    check_size(what, &vec![n; dim])?;
+    let mut ring_cells = vec![n; dim - 1];
+    ring_cells.push(params.n_matrix);
+    check_size(what, &ring_cells)?;
+    let inclusion = CubeSphere {
+        outer_name: None,
+        ..CubeSphere::single(
+            dim,
+            Extent::FirstSector,
+            Inner::Core {
+                half_size: core_fraction * params.inclusion_radius,
+            },
+            params.inclusion_radius,
+            n,
+            n,
+        )
+    };
+    let matrix = CubeSphere {
+        grading: params.grading,
+        layer_offset: 2 * n,
+        inner_name: None,
+        ..CubeSphere::single(
+            dim,
+            Extent::FirstSector,
+            Inner::Sphere {
+                radius: params.inclusion_radius,
+            },
+            params.radius,
+            n,
+            params.n_matrix,
+        )
+    };
+    let mut builder = Builder::new(dim, params.kind);
+    add_cube_sphere(&mut builder, &inclusion);
+    let n_inclusion = builder.n_cells();
+    add_cube_sphere(&mut builder, &matrix);
+    let mut mesh = builder.finish();
+    let n_cells = mesh.n_cells();
+    mesh.regions
+        .insert("inclusion".to_string(), (0..n_inclusion).collect());
+    mesh.regions
+        .insert("matrix".to_string(), (n_inclusion..n_cells).collect());
+    Ok(mesh)
 }
 
 /// Validated cube-sphere description of a quarter or full disc.
@@ -402,16 +524,16 @@ fn disc_spec(what: &str, params: &DiscParams, extent: Extent) -> Result<CubeSphe
     };
     let n_tangential = n_tangential.ok_or_else(|| too_large(what))?;
     check_size(what, &[n_tangential, n_tangential])?;
-    Ok(CubeSphere {
-        dim: 2,
+    Ok(CubeSphere::single(
+        2,
         extent,
-        inner: Inner::Core {
+        Inner::Core {
             half_size: DISC_CORE_FRACTION * params.radius,
         },
-        outer_radius: params.radius,
+        params.radius,
         n_tangential,
-        n_radial: params.n_cells,
-    })
+        params.n_cells,
+    ))
 }
 
 fn check_kind(what: &str, kind: CellKind, allowed: &[CellKind]) -> Result<(), MeshError> {

@@ -2,7 +2,7 @@
 //! of a plate with a central hole, or (with other boundary conditions) the half model of a plate
 //! with a semicircular edge notch.
 
-use super::structured::{Block, NodeKey, Side};
+use super::structured::{graded, Block, NodeKey, Side};
 
 /// One of the two blocks, split by the ray from the origin to the far corner `(W, H)`.
 /// Parameter 0 runs from the arc (u0 = 0) to the straight edge; parameter 1 runs
@@ -26,16 +26,9 @@ impl NotchBlock {
         self.height.atan2(self.width)
     }
 
+    /// Geometric cell sizes from the arc outwards (see [`graded`]).
     fn radial(&self, u: f64) -> f64 {
-        let g = self.grading;
-        if (g - 1.0).abs() < 1e-12 {
-            return u;
-        }
-        // Geometric cell sizes from the arc outwards: s(u) = (q^(n u) − 1)/(q^n − 1),
-        // q = g^(1/(n−1)) per cell; continuous in u so mid-side nodes follow the same map.
-        let n = self.n_radial as f64;
-        let q = g.powf(1.0 / (n - 1.0).max(1.0));
-        (q.powf(n * u) - 1.0) / (q.powf(n) - 1.0)
+        graded(u, self.n_radial, self.grading)
     }
 }
 

@@ -81,6 +81,11 @@ impl Builder {
         }
     }
 
+    /// Number of cells added so far (the id the next cell will get).
+    pub(super) fn n_cells(&self) -> usize {
+        self.n_cells
+    }
+
     /// Add every cell of `block`, creating the nodes not created by earlier blocks.
     pub(super) fn add_block(&mut self, block: &dyn Block) {
         let n = block.n_cells();
@@ -216,6 +221,18 @@ impl Builder {
             node_sets: BTreeMap::new(),
         }
     }
+}
+
+/// Geometric radial spacing: `s(u) = (q^(n u) − 1)/(q^n − 1)` with `q = g^(1/(n−1))` per cell,
+/// so that the last of `n` cells is `g` times the first; `s(u) = u` for `g = 1`. Continuous and
+/// increasing in `u`, so mid-edge nodes follow the same map and orientation is kept.
+pub(super) fn graded(u: f64, n: usize, grading: f64) -> f64 {
+    if (grading - 1.0).abs() < 1e-12 {
+        return u;
+    }
+    let n = n as f64;
+    let q = grading.powf(1.0 / (n - 1.0).max(1.0));
+    (q.powf(n * u) - 1.0) / (q.powf(n) - 1.0)
 }
 
 /// Simplices of one lattice cell: two triangles per square or six tetrahedra per cube, each the

@@ -3,10 +3,11 @@
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 
 use super::{
-    annulus_sector, assert_same_corners, ball_octant, check_mesh, cuboid, disc, norm,
-    notched_plate, per_axis, plane, quarter_disc, rectangle, shell_octant, sphere, sub,
-    total_measure, AnnulusParams, BallParams, BoxParams, CellKind, DiscParams, Expect, Mesh,
-    MeshError, NotchedPlateParams, Point, RectangleParams, Shape, ShellParams,
+    annulus_sector, assert_same_corners, ball_octant, check_mesh, corner_measure, cuboid, disc,
+    inclusion_ball_octant, inclusion_quarter_disc, norm, notched_plate, per_axis, plane,
+    quarter_disc, rectangle, shell_octant, sphere, sub, total_measure, AnnulusParams, BallParams,
+    BoxParams, CellKind, DiscParams, Expect, InclusionParams, Mesh, MeshError, NotchedPlateParams,
+    Point, RectangleParams, Shape, ShellParams,
 };
 
 const PLANAR: [CellKind; 5] = [
@@ -771,4 +772,198 @@ fn bad_parameters_are_typed_errors_saying_what_was_expected() {
         ..shell
     }));
     assert!(m.contains("n_angular must be at least 1"), "{m}");
+}
+
+fn inclusion_params(n: usize, m: usize, kind: CellKind) -> InclusionParams {
+    InclusionParams {
+        inclusion_radius: 0.4,
+        radius: 2.0,
+        n_inclusion: n,
+        n_matrix: m,
+        grading: 3.0,
+        kind,
+    }
+}
+
+/// Checks shared by both inclusion meshes: the regions split the cells, the inclusion cells lie
+/// in `r ≤ a` and the matrix cells in `r ≥ a`, and every node shared by the two regions (mid-edge
+/// and face nodes included) lies on the sphere `r = a`; at least one layer of such nodes exists.
+fn check_inclusion_regions(mesh: &Mesh, a: f64, n_inclusion_cells: usize) {
+    let inclusion = mesh.region("inclusion").unwrap();
+    let matrix = mesh.region("matrix").unwrap();
+    assert_eq!(
+        inclusion,
+        (0..n_inclusion_cells).collect::<Vec<_>>().as_slice()
+    );
+    assert_eq!(
+        matrix,
+        (n_inclusion_cells..mesh.n_cells())
+            .collect::<Vec<_>>()
+            .as_slice()
+    );
+    let mut side = vec![0u8; mesh.n_points()];
+    for (id, _, nodes) in mesh.cells() {
+        let inside = id < n_inclusion_cells;
+        for &n in nodes {
+            let r = norm(mesh.points[n]);
+            if inside {
+                assert!(
+                    r <= a * (1.0 + 1e-12),
+                    "inclusion cell {id} reaches r = {r}"
+                );
+                side[n] |= 1;
+            } else {
+                assert!(r >= a * (1.0 - 1e-12), "matrix cell {id} reaches r = {r}");
+                side[n] |= 2;
+            }
+        }
+    }
+    let shared: Vec<usize> = (0..mesh.n_points()).filter(|&n| side[n] == 3).collect();
+    assert!(!shared.is_empty());
+    for n in shared {
+        let r = norm(mesh.points[n]);
+        assert!((r - a).abs() <= 1e-12 * a, "interface node {n} at r = {r}");
+    }
+}
+
+#[test]
+fn inclusion_quarter_disc_every_kind() {
+    for (n, m) in [(1, 1), (2, 3)] {
+        for kind in QUADS {
+            let p = inclusion_params(n, m, kind);
+            let mesh = inclusion_quarter_disc(&p).unwrap();
+            let n_cells = 3 * n * n + 2 * n * m;
+            let l = per_axis(n, kind) - 1;
+            let lm = per_axis(m, kind) - 1;
+            let n_lattice = (l + 1) * (l + 1) + l * (2 * l + 1) + lm * (2 * l + 1);
+            let expect = Expect {
+                kind,
+                n_points: serendipity_count(kind, n_lattice, n_cells, 0),
+                n_cells,
+                scale: p.radius,
+                boundaries: vec![
+                    sphere("outer", 2 * n, p.radius, 1.0),
+                    plane("symmetry_x", 2 * n + m, 0, 0.0, -1.0),
+                    plane("symmetry_y", 2 * n + m, 1, 0.0, -1.0),
+                    plane("axis", 2 * n + m, 0, 0.0, -1.0),
+                ],
+                aliases: vec![("axis", "symmetry_x")],
+            };
+            check_mesh(&mesh, &expect);
+            check_inclusion_regions(&mesh, p.inclusion_radius, 3 * n * n);
+        }
+    }
+}
+
+#[test]
+fn inclusion_ball_octant_every_kind() {
+    for (n, m) in [(1, 1), (2, 2)] {
+        for kind in HEXES {
+            let p = inclusion_params(n, m, kind);
+            let mesh = inclusion_ball_octant(&p).unwrap();
+            let n_cells = 4 * n * n * n + 3 * n * n * m;
+            let l = per_axis(n, kind) - 1;
+            let lm = per_axis(m, kind) - 1;
+            let surface = (l + 1).pow(3) - l.pow(3);
+            let n_lattice = (l + 1).pow(3) + (l + lm) * surface;
+            let n_sym = 3 * n * n + 2 * n * m;
+            let n_boundary = 3 * n * n + 3 * n_sym;
+            let expect = Expect {
+                kind,
+                n_points: serendipity_count(kind, n_lattice, n_cells, n_boundary),
+                n_cells,
+                scale: p.radius,
+                boundaries: vec![
+                    sphere("outer", 3 * n * n, p.radius, 1.0),
+                    plane("symmetry_x", n_sym, 0, 0.0, -1.0),
+                    plane("symmetry_y", n_sym, 1, 0.0, -1.0),
+                    plane("symmetry_z", n_sym, 2, 0.0, -1.0),
+                ],
+                aliases: vec![],
+            };
+            check_mesh(&mesh, &expect);
+            check_inclusion_regions(&mesh, p.inclusion_radius, 4 * n * n * n);
+        }
+    }
+}
+
+/// Measure of one region from the cell corners (multilinear cells).
+fn region_measure(mesh: &Mesh, region: &str) -> f64 {
+    mesh.region(region)
+        .unwrap()
+        .iter()
+        .map(|&id| corner_measure(mesh.dim, mesh.cell(id).0, &mesh.cell_coords(id)))
+        .sum()
+}
+
+/// The inclusion and matrix areas (volumes) converge at second order to πa²/4 and
+/// π(R² − a²)/4 (octant: (π/6)a³ and (π/6)(R³ − a³)), as for the other curved generators
+/// (chord–arc geometry, see `assert_second_order`); the graded matrix cells grow outwards.
+#[test]
+fn inclusion_regions_converge_in_area_and_volume() {
+    let disc = |region: &'static str| {
+        move |k: usize| {
+            let p = inclusion_params(k, k, CellKind::Quad4);
+            region_measure(&inclusion_quarter_disc(&p).unwrap(), region)
+        }
+    };
+    let (a, r) = (0.4_f64, 2.0_f64);
+    assert_second_order("inclusion disc", PI * a * a / 4.0, disc("inclusion"), 4);
+    assert_second_order("matrix ring", PI * (r * r - a * a) / 4.0, disc("matrix"), 4);
+    let ball = |region: &'static str| {
+        move |k: usize| {
+            let p = inclusion_params(k, k, CellKind::Hex8);
+            region_measure(&inclusion_ball_octant(&p).unwrap(), region)
+        }
+    };
+    assert_second_order("inclusion ball", PI * a.powi(3) / 6.0, ball("inclusion"), 3);
+    assert_second_order(
+        "matrix shell",
+        PI * (r.powi(3) - a.powi(3)) / 6.0,
+        ball("matrix"),
+        3,
+    );
+    // Grading 3: along the x axis the last matrix cell is 3 times as long as the first.
+    let mesh = inclusion_quarter_disc(&inclusion_params(2, 5, CellKind::Quad4)).unwrap();
+    let mut xs: Vec<f64> = mesh
+        .points
+        .iter()
+        .filter(|p| p[1] == 0.0 && p[0] >= a * (1.0 - 1e-12))
+        .map(|p| p[0])
+        .collect();
+    xs.sort_by(|u, v| u.partial_cmp(v).unwrap());
+    assert_eq!(xs.len(), 6);
+    let first = xs[1] - xs[0];
+    let last = xs[5] - xs[4];
+    assert!((last / first - 3.0).abs() < 1e-9, "{}", last / first);
+}
+
+#[test]
+fn inclusion_parameters_are_checked() {
+    let good = inclusion_params(2, 2, CellKind::Quad8);
+    let m = generator_message(inclusion_quarter_disc(&InclusionParams {
+        inclusion_radius: 2.0,
+        ..good
+    }));
+    assert!(
+        m.contains("inclusion_radius must be smaller than radius"),
+        "{m}"
+    );
+    let m = generator_message(inclusion_quarter_disc(&InclusionParams {
+        grading: 0.0,
+        ..good
+    }));
+    assert!(m.contains("grading"), "{m}");
+    let m = generator_message(inclusion_quarter_disc(&InclusionParams {
+        n_matrix: 0,
+        ..good
+    }));
+    assert!(m.contains("n_matrix must be at least 1"), "{m}");
+    let m = generator_message(inclusion_ball_octant(&good));
+    assert!(m.contains("cell kind quad8 is not available"), "{m}");
+    let m = generator_message(inclusion_quarter_disc(&InclusionParams {
+        n_inclusion: usize::MAX / 2,
+        ..good
+    }));
+    assert!(m.contains("too many cells"), "{m}");
 }
