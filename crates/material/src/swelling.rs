@@ -157,6 +157,20 @@ pub fn mechanics(
     let dc = &stiffness.dstiffness_dc;
     let beta = &swelling.dstrain_dc;
     let e = strain - swelling.strain;
+    if e.iter().all(|v| *v == 0.0) && beta.iter().all(|v| *v == 0.0) {
+        // No elastic strain and no swelling (a body without mechanics): every product below
+        // is zero; skip the six 6×6 products.
+        return MechanicalState {
+            elastic_strain: e,
+            stress: Voigt::zeros(),
+            energy: 0.0,
+            mu: 0.0,
+            dstress_dstrain: *c,
+            dstress_dc: Voigt::zeros(),
+            dmu_dstrain: Voigt::zeros(),
+            dmu_dc: 0.0,
+        };
+    }
     let stress = c * e;
     let dc_e = dc * e;
     let dstress_dc = dc_e - c * beta;
