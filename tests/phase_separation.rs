@@ -271,7 +271,14 @@ reject_energy_rise = true
         .iter()
         .all(|&c| (0.45..=0.55).contains(&c)));
 
-    let (_model, _summary, dir) = run_text(&text(7));
+    let (_model, summary, dir) = run_text(&text(7));
+    // The default solver factors the indefinite symmetric form with pivoting: no LU fallback.
+    let activity = summary.solver_activity.as_deref().unwrap_or_default();
+    println!("solver: {activity}");
+    assert!(
+        activity.contains(" 0 solves by the LU fallback"),
+        "{activity}"
+    );
     let rows = history(dir.path());
     let amount = column(&rows, "amount_mol");
     let energy = column(&rows, "free_energy_j");

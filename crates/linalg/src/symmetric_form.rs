@@ -45,7 +45,9 @@ pub struct RowTransform {
     pub target: Vec<usize>,
     /// Nonzero, finite factors.
     pub scale: Vec<f64>,
-    /// Expected sign (`+1` or `−1`) of the pivot of each unknown in the symmetric form.
+    /// Expected sign (`+1` or `−1`) of the pivot of each unknown in the symmetric form; `0`
+    /// where it is not known in advance (then the factorisation pivots: Bunch–Kaufman within
+    /// supernodes instead of static signed pivots).
     pub signs: Vec<i8>,
 }
 
@@ -271,7 +273,14 @@ impl SymmetricFormSolver {
             return Ok(());
         }
         let structure = Structure::build(pattern, t);
-        let pivots = LdltPivoting::Signed(SignedPivots::with_signs(t.signs.clone()));
+        // A sign 0 says the pivot's sign is not known in advance (an indefinite block, e.g. a
+        // non-convex free energy): static pivots would meet wrong signs, so the factorisation
+        // pivots (Bunch–Kaufman within supernodes) instead.
+        let pivots = if t.signs.contains(&0) {
+            LdltPivoting::IntranodeBunchKaufman
+        } else {
+            LdltPivoting::Signed(SignedPivots::with_signs(t.signs.clone()))
+        };
         let mut ldlt = FaerLdlt::with_pivoting(self.direct_params(), pivots);
         ldlt.analyze(&structure.s_pattern)?;
         self.structure = Some(structure);

@@ -28,6 +28,13 @@ struct Model {
 /// upwind-like nonsymmetric operator of `problems::convection_diffusion_2d` minus its
 /// symmetric part's diagonal, scaled by `epsilon`.
 fn model(nx: usize, ny: usize, a0: f64, epsilon: f64) -> Model {
+    model_with(nx, ny, a0, epsilon, 1.0, 1)
+}
+
+/// As [`model`] with `G = g_mass M + L/2` and pivot sign `c_sign` for the `c` unknowns: a
+/// negative `g_mass` is the curvature of a non-convex free energy, which makes the `c` block
+/// of the symmetric form indefinite.
+fn model_with(nx: usize, ny: usize, a0: f64, epsilon: f64, g_mass: f64, c_sign: i8) -> Model {
     let l = laplacian_2d(nx, ny);
     let k = neumann_laplacian_2d(nx, ny);
     let n = l.n_rows();
@@ -37,7 +44,7 @@ fn model(nx: usize, ny: usize, a0: f64, epsilon: f64) -> Model {
     for i in 0..n {
         for &j in l.pattern.row(i) {
             let m_ij = if i == j { 1.0 } else { 0.0 } + 0.1 * dense(&l, i, j);
-            let g_ij = m_ij + 0.5 * dense(&l, i, j);
+            let g_ij = g_mass * m_ij + 0.5 * dense(&l, i, j);
             // Nonsymmetric perturbation: a one-sided difference (j < i only).
             let n_ij = if j + 1 == i {
                 -1.0
@@ -79,7 +86,7 @@ fn model(nx: usize, ny: usize, a0: f64, epsilon: f64) -> Model {
         scale[i] = -1.0 / (a0 * MASS_UNIT * MU_SCALE);
         target[n + i] = i;
         scale[n + i] = -1.0 / (POTENTIAL_UNIT * MU_SCALE);
-        signs[i] = 1;
+        signs[i] = c_sign;
         signs[n + i] = -1;
     }
     Model {
@@ -138,6 +145,37 @@ fn symmetric_form_is_solved_in_one_or_two_iterations() {
         (st.symmetric_factorizations, st.lu_solves),
         (1, 0),
         "{st:?}"
+    );
+}
+
+/// An indefinite `c` block (a non-convex energy, `G = −0.8 M + L/2` at a large time step): `G`
+/// is negative on the smoothest grid mode (`L`'s smallest eigenvalue on 12 × 10 is about 0.14:
+/// `−0.8 (1 + 0.014) + 0.07 < 0`) and positive on the roughest (`L` about 7.9: `−0.8·1.79 + 3.93
+/// > 0`), so static pivots with `+` signs for `c` meet wrong signs. With the `c` signs left
+/// unknown (0) the factorisation pivots (Bunch–Kaufman within supernodes), and the exactly
+/// symmetric form is solved in one or two GMRES iterations without the LU; with `+` signs the
+/// same matrix needs the LU fallback or many iterations.
+#[test]
+fn indefinite_block_with_unknown_signs_is_factored_with_pivoting() {
+    let m = model_with(12, 10, 0.5, 0.0, -0.8, 0);
+    let mut s = fresh(&m);
+    s.factor(&m.j).unwrap();
+    let (_, its) = solve(&mut s, &m);
+    assert!(its <= 2, "{its} GMRES iterations");
+    let st = s.stats();
+    assert_eq!(
+        (st.symmetric_factorizations, st.lu_solves),
+        (1, 0),
+        "{st:?}"
+    );
+    let signed = model_with(12, 10, 0.5, 0.0, -0.8, 1);
+    let mut s = fresh(&signed);
+    s.factor(&signed.j).unwrap();
+    let (_, its) = solve(&mut s, &signed);
+    assert!(
+        s.stats().lu_solves > 0 || its > 2,
+        "static + pivots unexpectedly fine: {its} iterations, {:?}",
+        s.stats()
     );
 }
 

@@ -235,6 +235,19 @@ impl ChemicalLaw {
         }
     }
 
+    /// Whether `ψ_chem` is convex over its whole range: the ideal dilute law always, the lattice
+    /// gas when `Ω_int ≤ 2RT` (its smallest `dμ/dc · c_max` is `4RT − 2Ω_int`, at θ = ½), the
+    /// double well never.
+    pub fn is_convex(&self) -> bool {
+        match self {
+            ChemicalLaw::IdealDilute(_) => true,
+            ChemicalLaw::LatticeGas(l) => {
+                l.params.interaction <= 2.0 * GAS_CONSTANT * l.params.temperature
+            }
+            ChemicalLaw::DoubleWell(_) => false,
+        }
+    }
+
     /// The scale of chemical-potential differences in J/mol: `RT` for the laws with a
     /// temperature, `W (c_b − c_a)³` for the double well (the order of its potential between
     /// the wells).

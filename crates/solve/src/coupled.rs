@@ -440,6 +440,21 @@ impl DiscreteSystem for CoupledProblem<'_> {
         let mut target: Vec<usize> = (0..n).collect();
         let mut scale = vec![1.0; n];
         let mut signs = vec![1i8; n];
+        // A non-convex chemical energy makes the (c, c) block of the symmetric form indefinite:
+        // its pivots have no sign known in advance.
+        let c_sign = if self
+            .laws
+            .laws()
+            .iter()
+            .any(|l| !l.parts().chemical.is_convex())
+        {
+            0
+        } else {
+            1
+        };
+        for d in self.dofs.field_range(fc) {
+            signs[d] = c_sign;
+        }
         let mass_scale = if self.a0 > 0.0 { -1.0 / self.a0 } else { -1.0 };
         for node in self.dofs.field_nodes(fc) {
             let dc = self.dofs.node_dof(fc, node, 0).expect("node carries c");
