@@ -269,6 +269,26 @@ impl Integrator {
                 dt *= self.params.cut_factor;
                 continue;
             }
+            // Error estimate and step proposal.
+            let (error, dt_next) = match self.params.sizing {
+                StepSizing::Fixed { dt: fixed } => (None, fixed),
+                StepSizing::Adaptive(a) => match self.error_norm(system, &x, dt, order, &a) {
+                    None => (None, (dt * a.max_growth.min(1.5)).min(a.dt_max)),
+                    Some(err) => {
+                        let k = order as f64;
+                        let factor = (a.safety * err.max(1e-10).powf(-1.0 / (k + 1.0)))
+                            .clamp(0.2, a.max_growth);
+                        if err > 1.0 {
+                            rejections.push(format!("local error {err:.3} above tolerance"));
+                            self.state.n_rejected += 1;
+                            dt = (dt * factor.min(0.9)).max(0.0);
+                            continue;
+                        }
+                        (Some(err), (dt * factor).min(a.dt_max))
+                    }
+                },
+            };
+            // Free-energy control (after the error estimate, the cheaper test).
             let mut energy_after = None;
             if let Some(control) = self.params.energy {
                 let e_old = match self.energy {
@@ -301,25 +321,6 @@ impl Integrator {
                     energy_after = Some(e_new);
                 }
             }
-            // Error estimate and step proposal.
-            let (error, dt_next) = match self.params.sizing {
-                StepSizing::Fixed { dt: fixed } => (None, fixed),
-                StepSizing::Adaptive(a) => match self.error_norm(system, &x, dt, order, &a) {
-                    None => (None, (dt * a.max_growth.min(1.5)).min(a.dt_max)),
-                    Some(err) => {
-                        let k = order as f64;
-                        let factor = (a.safety * err.max(1e-10).powf(-1.0 / (k + 1.0)))
-                            .clamp(0.2, a.max_growth);
-                        if err > 1.0 {
-                            rejections.push(format!("local error {err:.3} above tolerance"));
-                            self.state.n_rejected += 1;
-                            dt = (dt * factor.min(0.9)).max(0.0);
-                            continue;
-                        }
-                        (Some(err), (dt * factor).min(a.dt_max))
-                    }
-                },
-            };
             // Accept.
             let old_t = self.state.t;
             let old_x = std::mem::replace(&mut self.state.x, x);

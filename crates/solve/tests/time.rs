@@ -9,7 +9,8 @@ use std::sync::Arc;
 use dilata_linalg::{CsrMatrix, CsrPattern, DirectParams, FaerLu, LinearSolver, Ordering};
 use dilata_solve::newton::{DiscreteSystem, NewtonParams};
 use dilata_solve::time::{
-    AdaptiveParams, Integrator, IntegratorParams, Scheme, StepError, StepSizing, TransientSystem,
+    AdaptiveParams, EnergyControl, Integrator, IntegratorParams, Scheme, StepError, StepSizing,
+    TransientSystem,
 };
 
 #[derive(Debug, thiserror::Error)]
@@ -26,6 +27,8 @@ struct Decay {
     /// Refuse (as a recoverable error) steps longer than this.
     max_dt: f64,
     last_t: f64,
+    /// Free energy of a state, for the energy control (None: the system reports none).
+    energy: Option<fn(&[f64]) -> f64>,
 }
 
 impl Decay {
@@ -40,6 +43,7 @@ impl Decay {
             history: vec![0.0; n],
             max_dt: f64::INFINITY,
             last_t: 0.0,
+            energy: None,
         }
     }
     fn exact(&self, t: f64) -> Vec<f64> {
@@ -91,6 +95,9 @@ impl TransientSystem for Decay {
         self.t = t_new;
         self.a0 = a0;
         self.history.copy_from_slice(history);
+    }
+    fn free_energy(&self, x: &[f64]) -> Option<f64> {
+        self.energy.map(|e| e(x))
     }
 }
 
@@ -234,4 +241,85 @@ fn failed_steps_are_cut_and_retried_then_stop_below_minimum() {
     }
     assert_eq!(integ.state.x, before.x);
     assert_eq!(integ.state.t, before.t);
+}
+
+fn adaptive() -> StepSizing {
+    StepSizing::Adaptive(AdaptiveParams {
+        dt_initial: 0.05,
+        dt_min: 1e-6,
+        dt_max: 0.5,
+        rtol: 1e-4,
+        atol: 1e-6,
+        safety: 0.9,
+        max_growth: 2.0,
+    })
+}
+
+/// With `x' = cos t − (x − sin t)`, `x(0) = 1`, the solution `sin t + e^{−t}` first rises
+/// (`x' = cos t − e^{−t} > 0` for small t), so an "energy" `x²` must rise too: a control that
+/// rejects every rise cannot take a step, and the run stops below the minimum step with the
+/// energy rise named as the cause.
+#[test]
+fn energy_control_rejects_a_rise_and_names_it() {
+    let mut sys = Decay::new(vec![1.0]);
+    sys.energy = Some(|x: &[f64]| x[0] * x[0]);
+    let mut solver = solver_for(&sys);
+    let params = IntegratorParams {
+        scheme: Scheme::BackwardEuler,
+        sizing: adaptive(),
+        newton: newton_params(),
+        cut_factor: 0.25,
+        dt_min: 1e-6,
+        energy: Some(EnergyControl {
+            allowance: 1e-12,
+            max_change: None,
+        }),
+    };
+    let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
+    let err = integ.step(&mut sys, &mut solver, 1.0).unwrap_err();
+    let StepError::StepTooSmall { cause, .. } = err;
+    assert!(cause.contains("free energy rose"), "{cause}");
+    assert_eq!(integ.state.t, 0.0);
+    assert!(integ.state.n_rejected > 5);
+}
+
+/// A bound on the relative change of an "energy" `1 + x²` per step, for the forced decay with
+/// solution `sin t + e^{−2t}`: every accepted step changes the energy by at most the bound, and
+/// the bound (not the error estimate) caused rejections.
+#[test]
+fn energy_change_bound_limits_every_step() {
+    let mut sys = Decay::new(vec![2.0]);
+    sys.energy = Some(|x: &[f64]| 1.0 + x[0] * x[0]);
+    let mut solver = solver_for(&sys);
+    let params = IntegratorParams {
+        scheme: Scheme::Bdf2,
+        sizing: adaptive(),
+        newton: newton_params(),
+        cut_factor: 0.25,
+        dt_min: 1e-9,
+        energy: Some(EnergyControl {
+            allowance: f64::INFINITY,
+            max_change: Some(0.01),
+        }),
+    };
+    let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
+    let energy = |x: &[f64]| 1.0 + x[0] * x[0];
+    let mut bound_rejections = 0;
+    while integ.state.t < 3.0 {
+        let e_old = energy(&integ.state.x);
+        sys.last_t = integ.state.t;
+        let report = integ.step(&mut sys, &mut solver, 3.0).unwrap();
+        let e_new = energy(&integ.state.x);
+        assert!(
+            ((e_new - e_old) / e_old).abs() <= 0.01,
+            "step to t = {}: energy {e_old} -> {e_new}",
+            report.t
+        );
+        bound_rejections += report
+            .rejections
+            .iter()
+            .filter(|c| c.contains("free energy changed"))
+            .count();
+    }
+    assert!(bound_rejections > 0);
 }
