@@ -46,6 +46,8 @@ pub struct Model {
     pub mode: GeometryMode,
     /// Interpolation orders of u, c and μ.
     pub orders: [usize; 3],
+    /// Periodic node links (empty unless the body is periodic).
+    pub links: dilata_mesh::periodic::NodeLinks,
     pub laws: LawMap,
     pub material_names: Vec<String>,
     /// Initial concentration at every mesh node.
@@ -114,6 +116,7 @@ pub fn build_model(text: String, file: &str, base: &Path) -> Result<Model, RunEr
         }
     }
     add_zones(&scenario, &mut mesh, src)?;
+    let links = crate::periodic::build_links(&scenario, &mesh, mode, src)?;
     let orders = build_orders(&scenario, &mesh, src)?;
     let (laws, material_names) = build_laws(&scenario, &mesh, mode, src)?;
     let initial_c = build_initial(&scenario, &mesh, src)?;
@@ -149,6 +152,7 @@ pub fn build_model(text: String, file: &str, base: &Path) -> Result<Model, RunEr
         mesh,
         mode,
         orders,
+        links,
         laws,
         material_names,
         initial_c,

@@ -90,6 +90,10 @@ pub struct Body {
     /// What to do with rigid-body modes that the displacement conditions leave free.
     #[serde(default)]
     pub rigid_modes: RigidModes,
+    /// Periodic directions of a generated rectangle or box ("x", "y", "z").
+    pub periodic: Option<Located<Vec<Located<String>>>>,
+    /// Periodic boundary pairs `[first, second]` of any mesh (second = first shifted).
+    pub periodic_pairs: Option<Located<Vec<Located<[String; 2]>>>>,
 }
 
 /// Handling of rigid-body modes that no displacement condition removes.

@@ -1,0 +1,717 @@
+//! Periodic bodies (`body.periodic`, `body.periodic_pairs`): node links shared by every field,
+//! assembly that treats linked nodes as one node, rigid modes of a periodic body, and the
+//! scenario errors of periodic input.
+//!
+//! Outside checks, each with its source beside it:
+//! * a cosine profile decaying by pure diffusion on a periodic domain,
+//!   `c = c0 + a exp(−D k² t) cos(k x)`, `k = 2π/L` (separation of variables; J. Crank, The
+//!   Mathematics of Diffusion, 2nd ed., Oxford 1975, the Fourier-series solutions of chapter 4,
+//!   from memory);
+//! * a layer whose swelling strain varies only along x, periodic in x and y (no mean strain):
+//!   `u_x' = (3λ+2μ)/(λ+2μ) e`, `σ_yy = σ_zz = −E e/(1−ν)`, `σ_xx = 0` for the swelling strain
+//!   `e(x)` of zero mean (the laterally constrained layer of thermoelasticity; common practice,
+//!   no source).
+
+use std::path::Path;
+
+use dilata_fem::dofs::DofMap;
+use dilata_fem::{Assembler, AssemblyTarget, Constraints, FieldSpec, GeometryMode};
+use dilata_linalg::Parallelism;
+use dilata_material::elastic::Isotropic;
+use dilata_mesh::generate::{rectangle, RectangleParams};
+use dilata_mesh::periodic::{link_boundaries, BoundaryPair};
+use dilata_mesh::{CellKind, Mesh};
+use dilata_physics::elasticity::{mode_stiffness, ElasticityKernel};
+use dilata_run::{build_dofs, build_model, check_model, nodal_field, run, RunOptions};
+
+/// Side of the periodic cell, m.
+const L: f64 = 1.0e-6;
+/// Diffusivity, m²/s.
+const D: f64 = 1.0e-14;
+const C0: f64 = 1000.0;
+const A: f64 = 200.0;
+
+/// A plane-strain rectangle `L × L/4`, periodic as `periodic` says, dilute host with the given
+/// swelling, initial `c0 + a cos(2π x / L)`.
+fn scenario(
+    cells: [usize; 2],
+    element: &str,
+    periodic: &str,
+    omega: f64,
+    time: &str,
+    extra: &str,
+) -> String {
+    format!(
+        r#"
+[body]
+geometry = "plane_strain"
+shape = {{ kind = "rectangle", size = [{L:e}, {ly:e}], cells = [{nx}, {ny}], element = "{element}" }}
+{periodic}
+rigid_modes = "pin"
+
+[[material]]
+name = "host"
+young_modulus = 50.0e9
+poisson_ratio = 0.25
+partial_molar_volume = {omega:e}
+stress_free_concentration = {C0:e}
+reference_concentration = {C0:e}
+diffusivity = {D:e}
+
+[initial]
+concentration = "{C0:?} + {A:?} * cos({k:?} * x)"
+
+{extra}
+
+[[stage]]
+name = "relax"
+{time}
+"#,
+        ly = L / 4.0,
+        k = 2.0 * std::f64::consts::PI / L,
+        nx = cells[0],
+        ny = cells[1],
+    )
+}
+
+fn model(text: &str) -> dilata_run::Model {
+    build_model(text.to_string(), "periodic.toml", Path::new(".")).unwrap()
+}
+
+fn scenario_error(text: &str) -> String {
+    match build_model(text.to_string(), "periodic.toml", Path::new(".")) {
+        Ok(_) => panic!("the scenario was accepted"),
+        Err(e) => e.to_string(),
+    }
+}
+
+/// Concentration (from the DOF vector) at every mesh node, through the DOF map.
+fn nodal_c(model: &dilata_run::Model, x: &[f64]) -> Vec<f64> {
+    let (dofs, fields) = build_dofs(model);
+    nodal_field(&model.mesh, &dofs, fields.c, x)
+}
+
+/// Decay of a cosine profile by pure diffusion (no swelling) on a rectangle periodic in x and y,
+/// against `exp(−D k² t)` (source in the file header), on three meshes: the amplitude error
+/// falls at the rate of the element (two for bilinear quads), and every pair of linked nodes
+/// reads the same bits.
+#[test]
+fn a_cosine_profile_decays_at_the_fourier_rate() {
+    let k = 2.0 * std::f64::consts::PI / L;
+    let tau = 1.0 / (D * k * k);
+    let mut errors = Vec::new();
+    let mut off_mode = Vec::new();
+    for n in [8, 16, 32] {
+        let text = scenario(
+            [n, 2],
+            "quad4",
+            r#"periodic = ["x", "y"]"#,
+            0.0,
+            &format!("duration = {tau:e}"),
+            &format!(
+                "[time]\nscheme = \"bdf2\"\nfixed_step = {:e}\n[output]\nfields = false",
+                tau / 400.0
+            ),
+        );
+        let model = model(&text);
+        assert_eq!(model.links.n_linked(), (n + 1) + 3 - 1);
+        let dir = tempfile::tempdir().unwrap();
+        let summary = run(
+            &model,
+            &RunOptions {
+                out: dir.path().to_path_buf(),
+                threads: Some(1),
+            },
+            &mut |_| {},
+        )
+        .unwrap();
+        let t = summary.final_time;
+        assert!((t - tau).abs() < 1e-9 * tau, "t = {t}, tau = {tau}");
+        let c = nodal_c(&model, &summary.final_solution);
+        // Linked nodes carry the same bits: they read one DOF.
+        for (node, master) in model.links.pairs() {
+            assert_eq!(c[node].to_bits(), c[master].to_bits(), "node {node}");
+        }
+        // Amplitude by projection on cos(kx) over the nodes of one row (uniform spacing, the
+        // discrete projection is exact for a cosine sampled on a full period).
+        let row: Vec<usize> = (0..model.mesh.n_points())
+            .filter(|&i| model.mesh.points[i][1] == 0.0 && model.mesh.points[i][0] < L * 0.999)
+            .collect();
+        assert_eq!(row.len(), n);
+        let amp = 2.0 / n as f64
+            * row
+                .iter()
+                .map(|&i| (c[i] - C0) * (k * model.mesh.points[i][0]).cos())
+                .sum::<f64>();
+        let exact = A * (-D * k * k * t).exp();
+        let err = (amp - exact).abs() / exact;
+        // What is left after removing the mode.
+        let shape_err = row
+            .iter()
+            .map(|&i| (c[i] - C0 - amp * (k * model.mesh.points[i][0]).cos()).abs())
+            .fold(0.0, f64::max);
+        println!(
+            "n = {n:2}: amplitude {amp:.6} vs exact {exact:.6}, relative error {err:.3e}, \
+             off-mode residual {shape_err:.2e} mol/m^3"
+        );
+        errors.push(err);
+        off_mode.push(shape_err);
+    }
+    let rates: Vec<f64> = errors.windows(2).map(|w| (w[0] / w[1]).log2()).collect();
+    let off_rates: Vec<f64> = off_mode.windows(2).map(|w| (w[0] / w[1]).log2()).collect();
+    println!("observed rates: amplitude {rates:?}, off-mode residual {off_rates:?}");
+    // The discrete equations are nonlinear (μ = RT ln(c/c_ref) is a field of its own, the
+    // mobility D c/RT varies), so the profile gains harmonics of order (k h)² a/c0; they must
+    // vanish with h like the amplitude error.
+    // Measured 1.80 on the coarse pair (n = 8 is not yet asymptotic) and 1.97 on the fine one.
+    for r in &off_rates {
+        assert!((1.6..2.4).contains(r), "off-mode residual rate {r}");
+    }
+    // Bilinear elements: the decay rate of a mode is off by O((k h)²), so the amplitude error
+    // after one time constant falls fourfold per halving of h (rate 2); the time error of BDF2
+    // with 400 steps per time constant is far below the finest spatial error.
+    assert!(errors[2] < 5e-3, "finest error {}", errors[2]);
+    for r in &rates {
+        assert!((1.8..2.3).contains(r), "rate {r}");
+    }
+}
+
+/// Swelling varying along x only, periodic in x and y: the displacement and the stresses of the
+/// laterally constrained layer (source in the file header), with the rigid translations pinned
+/// (no singular matrix) and the cell keeping its average shape. Two meshes: the nodal stress
+/// (a projection, docs/theory.md §6) converges at its own rate.
+#[test]
+fn a_swelling_layer_periodic_in_x_and_y_has_the_constrained_layer_stress() {
+    let omega = 3.0e-6;
+    let (e_mod, nu) = (50.0e9, 0.25);
+    let lambda = e_mod * nu / ((1.0 + nu) * (1.0 - 2.0 * nu));
+    let mu = e_mod / (2.0 * (1.0 + nu));
+    let k = 2.0 * std::f64::consts::PI / L;
+    let mut stress_errors = Vec::new();
+    for n in [16, 32] {
+        let text = scenario(
+            [n, 2],
+            "quad9",
+            r#"periodic = ["x", "y"]"#,
+            omega,
+            "duration = 1.0e-6",
+            "[time]\nfixed_step = 1.0e-6\n[output]\nfields = false",
+        );
+        let model = model(&text);
+        let dir = tempfile::tempdir().unwrap();
+        let summary = run(
+            &model,
+            &RunOptions {
+                out: dir.path().to_path_buf(),
+                threads: Some(1),
+            },
+            &mut |_| {},
+        )
+        .unwrap();
+        let (dofs, fields) = build_dofs(&model);
+        let u = nodal_field(&model.mesh, &dofs, fields.u, &summary.final_solution);
+        let c = nodal_field(&model.mesh, &dofs, fields.c, &summary.final_solution);
+        // The concentration barely moves in 1 µs (D k² t = 4e-7); the swelling strain is taken
+        // from the computed c, whose amplitude is measured as in the decay test.
+        let row: Vec<usize> = (0..model.mesh.n_points())
+            .filter(|&i| model.mesh.points[i][1] == 0.0 && model.mesh.points[i][0] < L * 0.999)
+            .collect();
+        let amp = 2.0 / row.len() as f64
+            * row
+                .iter()
+                .map(|&i| (c[i] - C0) * (k * model.mesh.points[i][0]).cos())
+                .sum::<f64>();
+        let e_amp = omega / 3.0 * amp;
+        let ux_amp = (3.0 * lambda + 2.0 * mu) / (lambda + 2.0 * mu) * e_amp / k;
+        // Node 0 (the origin) is pinned; compare displacements relative to it.
+        let mut worst: f64 = 0.0;
+        let mut worst_y: f64 = 0.0;
+        for i in 0..model.mesh.n_points() {
+            let p = model.mesh.points[i];
+            let exact = ux_amp * (k * p[0]).sin();
+            worst = worst.max((u[2 * i] - u[0] - exact).abs());
+            worst_y = worst_y.max((u[2 * i + 1] - u[1]).abs());
+        }
+        // Lateral stress: the peak nodal hydrostatic stress σ_h = (σ_yy + σ_zz)/3
+        // = −2E e/(3(1−ν)), at the trough of e (x = L/2, a node of both meshes).
+        let expected = 2.0 / 3.0 * e_mod / (1.0 - nu) * e_amp;
+        let peak_h = summary.max_hydrostatic.0;
+        let stress_err = (peak_h - expected).abs() / expected;
+        println!(
+            "n = {n}: u_x amplitude {ux_amp:.4e} m, largest error {:.2e} relative, largest u_y \
+             {worst_y:.1e} m; peak hydrostatic stress {peak_h:.6e} Pa, expected {expected:.6e} \
+             Pa ({stress_err:.2e} relative)",
+            worst / ux_amp
+        );
+        // Quadratic elements, 16 or 32 per period: the nodal interpolation error of a sine is
+        // of order (kh)³/…, measured 5e-5 at n = 16; 1e-3 leaves room without hiding a wrong
+        // factor (a wrong stiffness combination is off by tens of percent).
+        assert!(worst < 1e-3 * ux_amp, "{worst}");
+        // No shear, no motion in y: u_y is round-off.
+        assert!(worst_y < 1e-9 * ux_amp, "{worst_y}");
+        stress_errors.push(stress_err);
+    }
+    // The nodal stress is the mean of the two cells' end-point derivatives, accurate to
+    // O((kh)²) for quadratic cells: at most 2 % at 16 cells per period, falling about fourfold
+    // per halving of h.
+    assert!(stress_errors[0] < 2e-2, "{stress_errors:?}");
+    assert!(
+        stress_errors[1] < stress_errors[0] / 3.0,
+        "stress error does not converge: {stress_errors:?}"
+    );
+}
+
+/// With `rigid_modes = "refuse"`, a body periodic in every direction lists only its
+/// translations: periodicity itself stops the rotations.
+#[test]
+fn rigid_modes_of_a_periodic_body_are_its_translations() {
+    let refuse = |text: String| text.replace("rigid_modes = \"pin\"", "rigid_modes = \"refuse\"");
+    let text = refuse(scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x", "y"]"#,
+        3e-6,
+        "duration = 1.0",
+        "",
+    ));
+    let err = check_model(&model(&text)).unwrap_err().to_string();
+    assert!(
+        err.contains("translation x, translation y") && !err.contains("rotation"),
+        "{err}"
+    );
+    // Periodic in x only: still no rotation, both translations.
+    let text = refuse(scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x"]"#,
+        3e-6,
+        "duration = 1.0",
+        "",
+    ));
+    let err = check_model(&model(&text)).unwrap_err().to_string();
+    assert!(
+        err.contains("translation x, translation y") && !err.contains("rotation"),
+        "{err}"
+    );
+    // Periodic in x, with the bottom held in y: translation x is the one mode left.
+    let text = refuse(scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x"]"#,
+        3e-6,
+        "duration = 1.0",
+        "[[boundary]]\non = \"bottom\"\nu_y = 0.0",
+    ));
+    let err = check_model(&model(&text)).unwrap_err().to_string();
+    assert!(
+        err.contains("translation x") && !err.contains("translation y"),
+        "{err}"
+    );
+    // A box periodic in x, y and z: three translations; in x only: the rotation about x too.
+    let box_text = |periodic: &str| {
+        format!(
+            r#"
+[body]
+geometry = "three_d"
+shape = {{ kind = "box", size = [1e-6, 1e-6, 1e-6], cells = [3, 3, 3], element = "hex8" }}
+{periodic}
+
+[[material]]
+name = "host"
+young_modulus = 50.0e9
+poisson_ratio = 0.25
+partial_molar_volume = 3e-6
+reference_concentration = 1000.0
+diffusivity = 1e-14
+
+[initial]
+concentration = 1000.0
+
+[[stage]]
+name = "hold"
+duration = 1.0
+"#
+        )
+    };
+    let err = check_model(&model(&box_text(r#"periodic = ["x", "y", "z"]"#)))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("translation x, translation y, translation z") && !err.contains("rotation"),
+        "{err}"
+    );
+    let err = check_model(&model(&box_text(r#"periodic = ["x"]"#)))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("translation x, translation y, translation z, rotation about x")
+            && !err.contains("rotation about y")
+            && !err.contains("rotation about z"),
+        "{err}"
+    );
+}
+
+/// A mesh large enough for seven assembly chunks (an odd number, so that the chunk holding the
+/// top row and the one holding the bottom row, linked through y, would get one colour if the
+/// colouring ignored the links).
+fn chunked_mesh() -> Mesh {
+    rectangle(&RectangleParams {
+        origin: [0.0, 0.0],
+        lengths: [1.0, 0.6],
+        n_cells: [56, 32],
+        kind: CellKind::Quad4,
+    })
+    .unwrap()
+}
+
+/// The colouring of a periodic mesh: no two chunks of one colour touch the same master node,
+/// counting linked nodes as one (the property that keeps threads from writing one entry).
+#[test]
+fn the_colouring_counts_linked_nodes_as_one() {
+    let mesh = chunked_mesh();
+    assert_eq!(
+        mesh.n_cells().div_ceil(dilata_fem::assembly::CHUNK_CELLS),
+        7
+    );
+    let links = link_boundaries(
+        &mesh,
+        &[
+            BoundaryPair::new("left", "right"),
+            BoundaryPair::new("bottom", "top"),
+        ],
+    )
+    .unwrap();
+    let dofs = DofMap::build_linked(&mesh, &[FieldSpec::scalar("c", 1)], &links).unwrap();
+    let plain = DofMap::build(&mesh, &[FieldSpec::scalar("c", 1)]).unwrap();
+    assert_eq!(
+        dofs.n_dofs(),
+        plain.n_dofs() - links.n_linked(),
+        "one DOF per class of linked nodes"
+    );
+    let assembler = Assembler::build(&mesh, &dofs, Parallelism::Rayon { threads: 2 });
+    let mut owner = vec![usize::MAX; mesh.n_points()];
+    for k in 0..assembler.n_colors() {
+        owner.iter_mut().for_each(|o| *o = usize::MAX);
+        for (q, chunk) in assembler.color_chunks(k).iter().enumerate() {
+            for cell in chunk.clone() {
+                for &n in mesh.cell(cell).1 {
+                    let m = links.master(n);
+                    assert!(
+                        owner[m] == usize::MAX || owner[m] == q,
+                        "colour {k}: chunks {} and {q} both touch master node {m}",
+                        owner[m]
+                    );
+                    owner[m] = q;
+                }
+            }
+        }
+    }
+    let plain_colors = Assembler::build(&mesh, &plain, Parallelism::Sequential).n_colors();
+    println!(
+        "colours: {} with links, {plain_colors} without",
+        assembler.n_colors()
+    );
+    assert!(assembler.n_colors() > plain_colors);
+}
+
+/// Matrix and vector of a periodic elastic problem on 1 and 2 threads, bit for bit.
+#[test]
+fn periodic_assembly_is_identical_on_one_and_two_threads() {
+    let mesh = chunked_mesh();
+    let links = link_boundaries(
+        &mesh,
+        &[
+            BoundaryPair::new("left", "right"),
+            BoundaryPair::new("bottom", "top"),
+        ],
+    )
+    .unwrap();
+    let dofs = DofMap::build_linked(&mesh, &[FieldSpec::vector("u", 2, 1)], &links).unwrap();
+    let u = dofs.field("u").unwrap();
+    let x: Vec<f64> = (0..dofs.n_dofs())
+        .map(|i| ((i as f64) * 0.7311).sin() * 1e-4)
+        .collect();
+    let stiffness = mode_stiffness(
+        &Isotropic::new(10e9, 0.27).unwrap().stiffness(),
+        GeometryMode::PlaneStrain,
+    );
+    let assemble = |parallelism| {
+        let assembler = Assembler::build(&mesh, &dofs, parallelism);
+        let mut matrix = assembler.build_matrix();
+        let mut vector = vec![0.0; dofs.n_dofs()];
+        let cons = Constraints::new(dofs.n_dofs());
+        let kernel = ElasticityKernel {
+            dofs: &dofs,
+            field: u,
+            mode: GeometryMode::PlaneStrain,
+            stiffness,
+            body_force: None,
+            solution: &x,
+        };
+        assembler
+            .assemble(
+                &mesh,
+                &dofs,
+                &kernel,
+                AssemblyTarget {
+                    matrix: Some(&mut matrix),
+                    vector: Some(&mut vector),
+                    constraints: Some((&cons, &[])),
+                },
+            )
+            .unwrap();
+        (matrix, vector)
+    };
+    let (m1, v1) = assemble(Parallelism::Sequential);
+    let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+    for _ in 0..3 {
+        let (m2, v2) = assemble(Parallelism::Rayon { threads: 2 });
+        assert_eq!(bits(&m1.values), bits(&m2.values), "matrix");
+        assert_eq!(bits(&v1), bits(&v2), "vector");
+    }
+    // The stiffness of a periodic body annihilates the translations (rows sum to zero per
+    // component) and nothing else of the rigid motions: a check that the linked contributions
+    // were summed into shared rows, not dropped.
+    let n = dofs.n_dofs();
+    let mut ones_x = vec![0.0; n];
+    for node in dofs.field_nodes(u) {
+        ones_x[dofs.node_dof(u, node, 0).unwrap()] = 1.0;
+    }
+    let mut y = vec![0.0; n];
+    m1.mul_vec_into(&ones_x, &mut y);
+    let scale = m1.values.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+    let worst = y.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+    assert!(
+        worst < 1e-12 * scale,
+        "K · (translation x) = {worst}, |K| {scale}"
+    );
+}
+
+/// A periodic coupled run (swelling, diffusion, rigid translations pinned) writes the same
+/// history and the same final state, bit for bit, on 1 and 2 threads.
+#[test]
+fn a_periodic_run_is_identical_on_one_and_two_threads() {
+    let text = scenario(
+        [56, 32],
+        "quad4",
+        r#"periodic = ["x", "y"]"#,
+        3.0e-6,
+        "duration = 5.0",
+        "[time]\nfixed_step = 1.0\n[output]\nfields = false",
+    );
+    let model = model(&text);
+    assert_eq!(model.mesh.n_cells(), 1792);
+    let mut results = Vec::new();
+    for threads in [1, 2] {
+        let dir = tempfile::tempdir().unwrap();
+        let summary = run(
+            &model,
+            &RunOptions {
+                out: dir.path().to_path_buf(),
+                threads: Some(threads),
+            },
+            &mut |_| {},
+        )
+        .unwrap();
+        let history = std::fs::read_to_string(dir.path().join("history.csv")).unwrap();
+        results.push((summary.final_solution, history));
+    }
+    let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+    assert_eq!(bits(&results[0].0), bits(&results[1].0), "final state");
+    assert_eq!(results[0].1, results[1].1, "history.csv");
+    assert!(results[0].1.lines().count() >= 6);
+}
+
+/// Errors of periodic input, each with its place in the file.
+#[test]
+fn periodic_input_errors_name_their_place() {
+    // A condition on a boundary of a periodic pair.
+    let text = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x"]"#,
+        0.0,
+        "duration = 1.0",
+        "[[boundary]]\non = \"right\"\nc = 1000.0",
+    );
+    let err = scenario_error(&text);
+    println!("{err}");
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("on = \"right\""))
+        .unwrap()
+        + 1;
+    assert!(
+        err.starts_with(&format!("periodic.toml:{line}:6:")),
+        "{err}"
+    );
+    assert!(
+        err.contains("boundary 'right' belongs to a periodic pair"),
+        "{err}"
+    );
+    // The same in a stage.
+    let text = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["y"]"#,
+        0.0,
+        "duration = 1.0\n[[stage.boundary]]\non = \"bottom\"\nu_y = 0.0",
+        "",
+    );
+    assert!(
+        scenario_error(&text).contains("boundary 'bottom' belongs to a periodic pair"),
+        "{}",
+        scenario_error(&text)
+    );
+    // Directions on a shape that has none.
+    let text = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x"]"#,
+        0.0,
+        "duration = 1.0",
+        "",
+    )
+    .replace(
+        &format!(
+            "{{ kind = \"rectangle\", size = [{L:e}, {:e}], cells = [4, 2], element = \"quad4\" }}",
+            L / 4.0
+        ),
+        "{ kind = \"quarter_disc\", radius = 1e-6, cells = 2, element = \"quad4\" }",
+    );
+    let err = scenario_error(&text);
+    println!("{err}");
+    let line = text
+        .lines()
+        .position(|l| l.starts_with("periodic"))
+        .unwrap()
+        + 1;
+    assert!(
+        err.starts_with(&format!("periodic.toml:{line}:12:")),
+        "{err}"
+    );
+    assert!(err.contains("needs a generated rectangle or box"), "{err}");
+    // A direction the body does not have.
+    let text = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["z"]"#,
+        0.0,
+        "duration = 1.0",
+        "",
+    );
+    let err = scenario_error(&text);
+    assert!(err.contains("unknown periodic direction 'z'"), "{err}");
+    assert!(err.contains(&format!("periodic.toml:{line}:13:")), "{err}");
+    // Pairs of boundaries that are not copies of each other (a generated rectangle whose left
+    // and top sides differ): the unmatched nodes are listed with both names.
+    let text = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic_pairs = [["left", "top"]]"#,
+        0.0,
+        "duration = 1.0",
+        "",
+    );
+    let err = scenario_error(&text);
+    println!("{err}");
+    assert!(err.contains(&format!("periodic.toml:{line}:18:")), "{err}");
+    assert!(
+        err.contains("'left' / 'top'") && err.contains("no partner"),
+        "{err}"
+    );
+}
+
+/// Four quadrilaterals on the unit square in an MSH 2.2 file, boundaries `west` (x = 0) and
+/// `east` (x = 1); `east_shift` moves the middle node of the east side up.
+fn square_msh(east_shift: f64) -> String {
+    let mut nodes = String::new();
+    let mut id = 1;
+    for j in 0..3 {
+        for i in 0..3 {
+            let (x, mut y) = (i as f64 * 0.5, j as f64 * 0.5);
+            if i == 2 && j == 1 {
+                y += east_shift;
+            }
+            nodes += &format!("{id} {x} {y} 0\n");
+            id += 1;
+        }
+    }
+    let n = |i: usize, j: usize| j * 3 + i + 1;
+    let mut elements = Vec::new();
+    for j in 0..2 {
+        elements.push(format!("1 2 1 1 {} {}", n(0, j + 1), n(0, j)));
+        elements.push(format!("1 2 2 2 {} {}", n(2, j), n(2, j + 1)));
+    }
+    for j in 0..2 {
+        for i in 0..2 {
+            elements.push(format!(
+                "3 2 3 3 {} {} {} {}",
+                n(i, j),
+                n(i + 1, j),
+                n(i + 1, j + 1),
+                n(i, j + 1)
+            ));
+        }
+    }
+    let mut text = String::from(
+        "$MeshFormat\n2.2 0 8\n$EndMeshFormat\n$PhysicalNames\n3\n1 1 \"west\"\n1 2 \"east\"\n\
+         2 3 \"body\"\n$EndPhysicalNames\n$Nodes\n9\n",
+    );
+    text += &nodes;
+    text += &format!("$EndNodes\n$Elements\n{}\n", elements.len());
+    for (k, e) in elements.iter().enumerate() {
+        text += &format!("{} {e}\n", k + 1);
+    }
+    text += "$EndElements\n";
+    text
+}
+
+/// An imported mesh: matching boundaries link (and the body keeps only its translations);
+/// boundaries that do not match are refused with the unmatched node and its coordinates.
+#[test]
+fn imported_meshes_link_by_named_pairs() {
+    let dir = tempfile::tempdir().unwrap();
+    let text = |mesh: &str| {
+        format!(
+            r#"
+[body]
+geometry = "plane_strain"
+mesh = "{mesh}"
+periodic_pairs = [["west", "east"]]
+
+[[material]]
+name = "host"
+young_modulus = 50.0e9
+poisson_ratio = 0.25
+partial_molar_volume = 3e-6
+reference_concentration = 1000.0
+diffusivity = 1e-14
+
+[initial]
+concentration = 1000.0
+
+[[stage]]
+name = "hold"
+duration = 1.0
+"#
+        )
+    };
+    std::fs::write(dir.path().join("good.msh"), square_msh(0.0)).unwrap();
+    std::fs::write(dir.path().join("bad.msh"), square_msh(0.1)).unwrap();
+    let good = build_model(text("good.msh"), "square.toml", dir.path()).unwrap();
+    assert_eq!(good.links.n_linked(), 3);
+    let err = check_model(&good).unwrap_err().to_string();
+    assert!(
+        err.contains("translation x, translation y") && !err.contains("rotation"),
+        "{err}"
+    );
+    let err = match build_model(text("bad.msh"), "square.toml", dir.path()) {
+        Ok(_) => panic!("unmatched boundaries accepted"),
+        Err(e) => e.to_string(),
+    };
+    println!("{err}");
+    assert!(err.starts_with("square.toml:5:18:"), "{err}");
+    assert!(err.contains("'west' / 'east'"), "{err}");
+    assert!(err.contains("node 5 at (1e0, 6e-1, 0e0)"), "{err}");
+}
