@@ -931,3 +931,51 @@ fn mixed_orders_on_a_periodic_quadratic_mesh() {
     assert!(err < 6e-3, "{amp} vs {exact}");
     assert!((amp - diffusion_only).abs() / diffusion_only > 1e-2);
 }
+
+/// `dilata check` on a periodic scenario names the linked nodes; on a periodic scenario with a
+/// condition on a periodic boundary it fails with the place in the file.
+#[test]
+fn dilata_check_reports_periodic_bodies() {
+    let dir = tempfile::tempdir().unwrap();
+    let good = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x", "y"]"#,
+        3.0e-6,
+        "duration = 1.0",
+        "",
+    );
+    let bad = scenario(
+        [4, 2],
+        "quad4",
+        r#"periodic = ["x", "y"]"#,
+        3.0e-6,
+        "duration = 1.0",
+        "[[boundary]]\non = \"top\"\nsymmetry = true",
+    );
+    let check = |name: &str, text: &str| {
+        let path = dir.path().join(name);
+        std::fs::write(&path, text).unwrap();
+        std::process::Command::new(env!("CARGO_BIN_EXE_dilata"))
+            .args(["check", path.to_str().unwrap()])
+            .output()
+            .unwrap()
+    };
+    let out = check("good.toml", &good);
+    let stdout = String::from_utf8_lossy(&out.stdout);
+    assert!(out.status.success(), "{stdout}");
+    // 4 × 2 cells: 3 nodes on the right, 5 on top, the corner once.
+    assert!(
+        stdout.contains("periodic   7 boundary nodes share the unknowns of their partners"),
+        "{stdout}"
+    );
+    let out = check("bad.toml", &bad);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(!out.status.success());
+    let line = bad.lines().position(|l| l == "on = \"top\"").unwrap() + 1;
+    assert!(stderr.contains(&format!("bad.toml:{line}:6:")), "{stderr}");
+    assert!(
+        stderr.contains("boundary 'top' belongs to a periodic pair"),
+        "{stderr}"
+    );
+}
