@@ -591,6 +591,19 @@ fn periodic_input_errors_name_their_place() {
         "{err}"
     );
     assert!(err.contains("needs a generated rectangle or box"), "{err}");
+    // An axisymmetric body: periodic along its axis (y) only; then the axial translation is
+    // its one rigid mode.
+    let axi = |periodic: &str| {
+        scenario([4, 2], "quad4", periodic, 3e-6, "duration = 1.0", "")
+            .replace("plane_strain", "axisymmetric")
+            .replace("rigid_modes = \"pin\"", "")
+    };
+    let err = scenario_error(&axi(r#"periodic = ["x"]"#));
+    assert!(err.contains("only along its axis"), "{err}");
+    let err = check_model(&model(&axi(r#"periodic = ["y"]"#)))
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("translation z (along the axis)"), "{err}");
     // A direction the body does not have.
     let text = scenario(
         [4, 2],

@@ -115,8 +115,10 @@ impl NodeLinks {
 const LISTED: usize = 5;
 
 /// Relative position tolerance: two nodes match when they are closer than this times the
-/// shortest facet edge of the two boundaries (common practice, no source).
-pub const MATCH_TOLERANCE: f64 = 1e-6;
+/// shortest facet edge of the two boundaries. Far below the half edge at which a wrong node
+/// could match, far above the rounding of coordinates written with 8 or more significant digits
+/// (common practice, no source).
+pub const MATCH_TOLERANCE: f64 = 1e-4;
 
 /// Link the nodes of every pair (see [`BoundaryPair`]) and resolve chains to one master per
 /// class of linked nodes.
