@@ -27,7 +27,12 @@ const MESHES: [&str; 10] = [
     "tri3_v41_binary.msh",
 ];
 
-const SCENARIOS: [&str; 3] = ["charging_particle", "bilayer_strip", "notched_plate"];
+const SCENARIOS: [&str; 4] = [
+    "charging_particle",
+    "bilayer_strip",
+    "notched_plate",
+    "periodic_layer",
+];
 
 fn root() -> &'static Path {
     Path::new(env!("CARGO_MANIFEST_DIR"))

@@ -45,6 +45,12 @@ fn describe(model: &Model) {
         model.orders[1],
         model.orders[2]
     );
+    if !model.links.is_empty() {
+        println!(
+            "  periodic   {} boundary nodes share the unknowns of their partners",
+            model.links.n_linked()
+        );
+    }
     for (name, cells) in material_table(model) {
         println!("  material   {name}: {cells} cells");
     }

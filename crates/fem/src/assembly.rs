@@ -2,6 +2,9 @@
 //!
 //! Cells are grouped into chunks of [`CHUNK_CELLS`] consecutive cells, and the chunks are
 //! coloured so that no two chunks of one colour share a node, hence no DOF and no matrix entry.
+//! Nodes linked by periodicity (see `DofMap::build_linked`) count as one node here: the
+//! adjacency, the pattern and the colouring are built on master nodes, since two cells on
+//! opposite sides of a periodic body write the same DOFs.
 //! Colours are processed one after another, the chunks of a colour in parallel, and the cells of
 //! a chunk in order on one thread. Every matrix and vector entry therefore receives its
 //! contributions in the same order (colour order, then the one chunk of that colour touching it,
@@ -108,9 +111,9 @@ pub struct Assembler {
 impl Assembler {
     /// Build the pattern (from connectivity) and the colouring.
     pub fn build(mesh: &Mesh, dofs: &DofMap, parallelism: Parallelism) -> Self {
-        let adjacency = build_node_adjacency(mesh);
+        let adjacency = build_node_adjacency(mesh, dofs);
         let pattern = Arc::new(build_pattern(mesh, dofs, &adjacency));
-        let colors = build_colors(mesh, &adjacency.node_cells);
+        let colors = build_colors(mesh, dofs, &adjacency.node_cells);
         // The same `Parallelism` value as the linear solvers: `Sequential` assembles on the
         // calling thread, `Rayon { threads }` on a private pool of that size (0: all cores).
         let pool = match parallelism {
@@ -143,6 +146,11 @@ impl Assembler {
 
     pub fn n_colors(&self) -> usize {
         self.colors.len()
+    }
+
+    /// The chunks (ranges of cell ids) of colour `k`, processed in parallel in one sweep.
+    pub fn color_chunks(&self, k: usize) -> &[std::ops::Range<usize>] {
+        &self.colors[k]
     }
 
     pub fn parallelism(&self) -> Parallelism {
@@ -218,8 +226,8 @@ impl Assembler {
                     );
                     buf.coords = coords;
                     result?;
-                    // SAFETY: chunks of one colour share no node, hence no DOF, row or entry;
-                    // each entry is written by exactly one task (chunk) of this colour.
+                    // SAFETY: chunks of one colour share no (master) node, hence no DOF, row or
+                    // entry; each entry is written by exactly one task (chunk) of this colour.
                     unsafe {
                         scatter_local(
                             pattern,
@@ -502,20 +510,22 @@ unsafe fn scatter_local(
     }
 }
 
-/// Node-to-cell incidence.
+/// Node-to-cell incidence, on master nodes: a linked node's cells are listed under its master
+/// (and a linked node itself has none).
 struct NodeAdjacency {
-    /// CSR: cells of each node.
+    /// CSR: cells of each master node.
     node_cells: (Vec<usize>, Vec<usize>),
-    /// CSR: nodes sharing a cell with each node (sorted, including itself).
+    /// CSR: master nodes sharing a cell with each master node (sorted, including itself).
     node_nodes: (Vec<usize>, Vec<usize>),
 }
 
-fn build_node_adjacency(mesh: &Mesh) -> NodeAdjacency {
+fn build_node_adjacency(mesh: &Mesh, dofs: &DofMap) -> NodeAdjacency {
     let n_points = mesh.n_points();
+    let master = |n: usize| dofs.master_node(n);
     let mut count = vec![0usize; n_points + 1];
     for (_, _, nodes) in mesh.cells() {
         for &n in nodes {
-            count[n + 1] += 1;
+            count[master(n) + 1] += 1;
         }
     }
     for i in 0..n_points {
@@ -525,8 +535,9 @@ fn build_node_adjacency(mesh: &Mesh) -> NodeAdjacency {
     let mut cells = vec![0usize; count[n_points]];
     for (c, _, nodes) in mesh.cells() {
         for &n in nodes {
-            cells[fill[n]] = c;
-            fill[n] += 1;
+            let m = master(n);
+            cells[fill[m]] = c;
+            fill[m] += 1;
         }
     }
     let mut ptr = vec![0usize];
@@ -535,7 +546,7 @@ fn build_node_adjacency(mesh: &Mesh) -> NodeAdjacency {
     for n in 0..n_points {
         row.clear();
         for &c in &cells[count[n]..count[n + 1]] {
-            row.extend_from_slice(mesh.cell(c).1);
+            row.extend(mesh.cell(c).1.iter().map(|&m| master(m)));
         }
         row.sort_unstable();
         row.dedup();
@@ -595,10 +606,11 @@ fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern 
 /// count) so that the colouring, hence the order of floating-point sums, never depends on it.
 pub const CHUNK_CELLS: usize = 256;
 
-/// Greedy colouring of the chunks: no two chunks of one colour share a node. Deterministic
-/// (chunk order).
+/// Greedy colouring of the chunks: no two chunks of one colour share a node (linked nodes
+/// counting as their master). Deterministic (chunk order).
 fn build_colors(
     mesh: &Mesh,
+    dofs: &DofMap,
     node_cells: &(Vec<usize>, Vec<usize>),
 ) -> Vec<Vec<std::ops::Range<usize>>> {
     let (ptr, cells) = node_cells;
@@ -614,6 +626,7 @@ fn build_colors(
         while let Some((c, _, nodes)) = cell_iter.next_if(|(c, _, _)| range.contains(c)) {
             debug_assert!(range.contains(&c));
             for &n in nodes {
+                let n = dofs.master_node(n);
                 for &other in &cells[ptr[n]..ptr[n + 1]] {
                     let k = color[other / CHUNK_CELLS];
                     if k != usize::MAX {

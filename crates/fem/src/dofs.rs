@@ -7,7 +7,15 @@
 //!
 //! On a cell the local DOF vector is laid out field by field, then node by node (in the space
 //! kind's node order), then component: see [`DofMap::local_range`].
+//!
+//! Periodicity: [`DofMap::build_linked`] takes [`NodeLinks`] (from
+//! `dilata_mesh::periodic::link_boundaries`) and gives every linked node the DOFs of its master,
+//! for every field. Slots exist only for masters (`field_nodes` lists masters), `node_dof` of a
+//! linked node returns its master's DOF, and a cell touching a linked node lists the master's
+//! DOFs, so assembly sums the contributions of both sides and any solution is periodic by
+//! construction.
 
+use dilata_mesh::periodic::NodeLinks;
 use dilata_mesh::{CellKind, Mesh};
 
 use crate::values::space_kind;
@@ -62,6 +70,16 @@ pub enum DofError {
         "field '{field}' has no DOF at node {node} (the node is not used by its interpolation)"
     )]
     NodeNotInField { field: String, node: usize },
+    #[error(
+        "field '{field}': node {node} is linked to node {master}, but only one of them carries \
+         the field (a corner node linked to a mid-edge node: the periodic boundaries are not \
+         meshed alike)"
+    )]
+    LinkAcrossSpaces {
+        field: String,
+        node: usize,
+        master: usize,
+    },
 }
 
 #[derive(Clone, Debug)]
@@ -82,12 +100,28 @@ pub struct DofMap {
     cell_dofs: Vec<usize>,
     cell_ptr: Vec<usize>,
     cell_kinds: Vec<CellKind>,
+    /// Linked nodes share their master's DOFs (empty: no links).
+    links: NodeLinks,
 }
 
 impl DofMap {
     /// Build the DOF map of `fields` on `mesh`.
     pub fn build(mesh: &Mesh, fields: &[FieldSpec]) -> Result<Self, DofError> {
+        Self::build_linked(mesh, fields, &NodeLinks::none())
+    }
+
+    /// Build the DOF map of `fields` on `mesh`, every linked node sharing the DOFs of its master
+    /// (see the module documentation).
+    ///
+    /// # Panics
+    /// If `links` was built for another mesh (a different node count).
+    pub fn build_linked(
+        mesh: &Mesh,
+        fields: &[FieldSpec],
+        links: &NodeLinks,
+    ) -> Result<Self, DofError> {
         let n_points = mesh.n_points();
+        links.assert_fits(n_points);
         let mut infos = Vec::with_capacity(fields.len());
         let mut offset = 0;
         for spec in fields {
@@ -107,11 +141,24 @@ impl DofMap {
                     used[n] = true;
                 }
             }
+            for (node, master) in links.pairs() {
+                if used[node] != used[master] {
+                    return Err(DofError::LinkAcrossSpaces {
+                        field: spec.name.clone(),
+                        node,
+                        master,
+                    });
+                }
+            }
+            // Slots for masters only, in node order (so slot order follows master order).
             for (n, u) in used.iter().enumerate() {
-                if *u {
+                if *u && links.master(n) == n {
                     slot[n] = n_slots;
                     n_slots += 1;
                 }
+            }
+            for (node, master) in links.pairs() {
+                slot[node] = slot[master];
             }
             infos.push(FieldInfo {
                 spec: spec.clone(),
@@ -142,7 +189,19 @@ impl DofMap {
             cell_dofs,
             cell_ptr,
             cell_kinds,
+            links: links.clone(),
         })
+    }
+
+    /// The node links the map was built with (empty for [`DofMap::build`]).
+    pub fn links(&self) -> &NodeLinks {
+        &self.links
+    }
+
+    /// Master of a mesh node: the node whose DOFs it uses (itself when not linked).
+    #[inline]
+    pub fn master_node(&self, node: usize) -> usize {
+        self.links.master(node)
     }
 
     pub fn n_dofs(&self) -> usize {
@@ -181,7 +240,8 @@ impl DofMap {
         self.fields[f.0].n_slots
     }
 
-    /// Global DOF of `component` of field `f` at mesh node `node`.
+    /// Global DOF of `component` of field `f` at mesh node `node` (its master's for a linked
+    /// node).
     pub fn node_dof(
         &self,
         f: FieldHandle,
@@ -203,12 +263,13 @@ impl DofMap {
         }
     }
 
-    /// Mesh nodes carrying the field, with their slot order.
+    /// Mesh nodes carrying the field, with their slot order (masters only when nodes are
+    /// linked: one node per slot).
     pub fn field_nodes(&self, f: FieldHandle) -> Vec<usize> {
         let info = &self.fields[f.0];
         let mut nodes = vec![0; info.n_slots];
         for (n, &s) in info.slot.iter().enumerate() {
-            if s != usize::MAX {
+            if s != usize::MAX && self.links.master(n) == n {
                 nodes[s] = n;
             }
         }

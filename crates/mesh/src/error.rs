@@ -50,6 +50,13 @@ pub enum MeshError {
     Invalid(String),
     #[error("invalid generator parameters: {0}")]
     Generator(String),
+    /// Two boundaries named as a periodic pair cannot be linked node to node.
+    #[error("periodic pair '{first}' / '{second}': {message}")]
+    Periodic {
+        first: String,
+        second: String,
+        message: String,
+    },
 }
 
 fn list_ids(cells: &[usize]) -> String {

@@ -23,6 +23,7 @@ pub mod error;
 pub mod generate;
 pub mod mesh;
 pub mod msh;
+pub mod periodic;
 
 pub use cell::{CellKind, Shape};
 pub use error::{Location, MeshError};

@@ -155,6 +155,8 @@ pub fn recover_coupled_nodal(
                     point: q,
                     source,
                 })?;
+            // Periodic links: a linked node and its master are one node, averaged together.
+            let node = post.dofs.master_node(node);
             stress[node] += out.stress;
             for d in 0..3 {
                 flux[node][d] += out.flux[d];
@@ -170,6 +172,10 @@ pub fn recover_coupled_nodal(
                 *v *= inv;
             }
         }
+    }
+    for (node, master) in post.dofs.links().pairs() {
+        stress[node] = stress[master];
+        flux[node] = flux[master];
     }
     Ok(CoupledNodal { stress, flux })
 }

@@ -130,15 +130,16 @@ pub fn build_dofs(model: &Model) -> (DofMap, CoupledFields) {
     } else {
         0
     };
-    let dofs = DofMap::build(
+    let dofs = DofMap::build_linked(
         &model.mesh,
         &[
             FieldSpec::vector("u", dim, model.orders[0]),
             FieldSpec::scalar("c", model.orders[1]),
             FieldSpec::scalar("mu", model.orders[2]),
         ],
+        &model.links,
     )
-    .expect("orders were checked against the mesh");
+    .expect("orders and periodic links were checked against the mesh");
     let fields = CoupledFields {
         u: dofs.field("u").expect("just built"),
         c: dofs.field("c").expect("just built"),

@@ -13,6 +13,7 @@ mod checkpoint;
 mod driver;
 mod formula;
 mod model;
+mod periodic;
 mod program;
 mod record;
 mod report;

@@ -49,6 +49,8 @@ pub struct Model {
     pub mode: GeometryMode,
     /// Interpolation orders of u, c and μ.
     pub orders: [usize; 3],
+    /// Periodic node links (empty unless the body is periodic).
+    pub links: dilata_mesh::periodic::NodeLinks,
     pub laws: LawMap,
     pub material_names: Vec<String>,
     /// Initial concentration at every mesh node.
@@ -117,6 +119,7 @@ pub fn build_model(text: String, file: &str, base: &Path) -> Result<Model, RunEr
         }
     }
     add_zones(&scenario, &mut mesh, src)?;
+    let links = crate::periodic::build_links(&scenario, &mesh, mode, src)?;
     let orders = build_orders(&scenario, &mesh, src)?;
     let (laws, material_names) = build_laws(&scenario, &mesh, mode, src)?;
     let initial_c = build_initial(&scenario, &mesh, src)?;
@@ -152,6 +155,7 @@ pub fn build_model(text: String, file: &str, base: &Path) -> Result<Model, RunEr
         mesh,
         mode,
         orders,
+        links,
         laws,
         material_names,
         initial_c,

@@ -200,6 +200,10 @@ impl<'m> CoupledProblem<'m> {
                 self.n_swapped += 1;
             }
         }
+        // Periodic links: a linked node shares its master's rows, so it swaps with it.
+        for (node, master) in self.dofs.links().pairs() {
+            self.swapped[node] = self.swapped[master];
+        }
         if self.n_swapped > 0 {
             if let Err(e) = self.check_setup() {
                 panic!("coupled problem assembled without check_setup: {e}");

@@ -13,6 +13,12 @@
 //! plane stress two translations and the rotation about z; an axisymmetric (r–z) model only the
 //! translation along the axis (a radial translation or a rotation about another axis would
 //! break the symmetry, and rotation about the axis is torsion, outside the model).
+//!
+//! Periodicity: nodes linked by the DOF map (`DofMap::build_linked`) share their displacement,
+//! so a mode that moves a linked node differently from its master is not a motion the
+//! discrete body can make. Such modes count as stopped, like those stopped by a constraint: a
+//! rectangle periodic in x keeps the two translations (the rotation would move the two ends of
+//! the period apart), and a box periodic in x, y and z keeps only its three translations.
 
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Constraints, FieldHandle, GeometryMode};
@@ -258,12 +264,20 @@ impl Frame {
         }
     }
 
-    /// Null space of the modes restricted to the constrained displacement DOFs.
+    /// Null space of the modes restricted to the constrained displacement DOFs and to the
+    /// differences between linked nodes and their masters (periodicity).
     fn free_space(&self, body: &RigidBody<'_>, constraints: &Constraints) -> FreeSpace {
         let m = self.modes.len();
         let nc = body.mode.space_dim();
         let mut gram = [[0.0; 6]; 6];
         let mut row = [0.0; 6];
+        let mut add = |row: &[f64; 6]| {
+            for i in 0..m {
+                for j in 0..m {
+                    gram[i][j] += row[i] * row[j];
+                }
+            }
+        };
         for node in body.dofs.field_nodes(body.u_field) {
             let x = body.mesh.points[node];
             for k in 0..nc {
@@ -273,11 +287,19 @@ impl Frame {
                 for j in 0..m {
                     row[j] = self.value(j, x, k);
                 }
-                for i in 0..m {
-                    for j in 0..m {
-                        gram[i][j] += row[i] * row[j];
-                    }
+                add(&row);
+            }
+        }
+        for (node, master) in body.dofs.links().pairs() {
+            if body.dofs.node_dof(body.u_field, node, 0).is_err() {
+                continue;
+            }
+            let (x, y) = (body.mesh.points[node], body.mesh.points[master]);
+            for k in 0..nc {
+                for j in 0..m {
+                    row[j] = self.value(j, x, k) - self.value(j, y, k);
                 }
+                add(&row);
             }
         }
         let (values, vectors) = symmetric_eigen(gram, m);

@@ -94,6 +94,10 @@ pub struct Body {
     /// materials then give no elastic constants and no swelling.
     #[serde(default = "yes")]
     pub mechanics: bool,
+    /// Periodic directions of a generated rectangle or box ("x", "y", "z").
+    pub periodic: Option<Located<Vec<Located<String>>>>,
+    /// Periodic boundary pairs `[first, second]` of any mesh (second = first shifted).
+    pub periodic_pairs: Option<Located<Vec<Located<[String; 2]>>>>,
 }
 
 /// Handling of rigid-body modes that no displacement condition removes.
