@@ -85,13 +85,37 @@ enum Command {
         no_plot: bool,
     },
     /// Draw the history of a run (DIR/history.csv) as PNG and SVG figures: concentration, peak
-    /// stresses, energies and step size against time, stage changes marked.
+    /// stresses, energies and step size against time, stage changes marked. With --field: colour
+    /// maps of a nodal field of a 2D run instead, one PNG per snapshot.
     Plot {
         /// Results directory of a run.
         dir: PathBuf,
         /// Directory for the figures (default: DIR).
         #[arg(long, value_name = "OUT")]
         out: Option<PathBuf>,
+        /// Draw this point array of the snapshots (`c`, `mu`, `hydrostatic_stress`, ...; one
+        /// component of a vector or tensor as `u[0]`); repeat for several fields.
+        #[arg(long, value_name = "NAME")]
+        field: Vec<String>,
+        /// Only the snapshots nearest to these times in seconds (comma-separated; default: all).
+        #[arg(
+            long,
+            value_name = "T,T,...",
+            value_delimiter = ',',
+            requires = "field"
+        )]
+        times: Option<Vec<f64>>,
+        /// Colour range LOW,HIGH (default: smallest to largest value over the pictures drawn).
+        #[arg(
+            long,
+            value_name = "LOW,HIGH",
+            value_delimiter = ',',
+            requires = "field"
+        )]
+        range: Option<Vec<f64>>,
+        /// Also write every field picture as SVG.
+        #[arg(long, requires = "field")]
+        svg: bool,
     },
 }
 
@@ -123,7 +147,20 @@ pub fn main() -> ExitCode {
             threads,
             no_plot,
         } => scenario_cmd::demo(&out, threads, !no_plot),
-        Command::Plot { dir, out } => plot_cmd::plot(&dir, out.as_deref()),
+        Command::Plot {
+            dir,
+            out,
+            field,
+            times,
+            range,
+            svg,
+        } => {
+            if field.is_empty() {
+                plot_cmd::plot(&dir, out.as_deref())
+            } else {
+                plot_cmd::fields(&dir, out.as_deref(), &field, times, range, svg)
+            }
+        }
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

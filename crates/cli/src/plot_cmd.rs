@@ -1,9 +1,9 @@
-//! `dilata plot DIR`, and the figures `dilata run` draws when it ends.
+//! `dilata plot DIR` (history figures, or field pictures with `--field`), and the figures `dilata run` draws when it ends.
 
 use std::path::Path;
 
 use anyhow::Context;
-use dilata_plot::{HistoryTable, PlotOptions, HISTORY_FILE};
+use dilata_plot::{FieldPlotOptions, HistoryTable, PlotOptions, HISTORY_FILE};
 
 /// `dilata plot DIR [--out OUT]`: figures of `DIR/history.csv`.
 pub fn plot(dir: &Path, out: Option<&Path>) -> anyhow::Result<()> {
@@ -13,6 +13,46 @@ pub fn plot(dir: &Path, out: Option<&Path>) -> anyhow::Result<()> {
     }
     let written = draw(dir, out)?;
     println!("{} figures written:", written.len());
+    for f in &written {
+        println!("  {}", f.display());
+    }
+    Ok(())
+}
+
+/// `dilata plot DIR --field NAME [--times ..] [--range LOW,HIGH] [--svg] [--out OUT]`: colour
+/// maps of each field, one per chosen snapshot.
+pub fn fields(
+    dir: &Path,
+    out: Option<&Path>,
+    fields: &[String],
+    times: Option<Vec<f64>>,
+    range: Option<Vec<f64>>,
+    svg: bool,
+) -> anyhow::Result<()> {
+    let range = match range.as_deref() {
+        None => None,
+        Some(&[lo, hi]) => Some((lo, hi)),
+        Some(other) => anyhow::bail!(
+            "--range: expected two numbers LOW,HIGH, got {} ({other:?})",
+            other.len()
+        ),
+    };
+    if let Some(out) = out {
+        std::fs::create_dir_all(out)
+            .with_context(|| format!("creating the figure directory {}", out.display()))?;
+    }
+    let mut written = Vec::new();
+    for field in fields {
+        let options = FieldPlotOptions {
+            times: times.clone(),
+            range,
+            svg,
+            out: out.map(Path::to_path_buf),
+            ..FieldPlotOptions::new(field)
+        };
+        written.extend(dilata_plot::plot_field_dir(dir, &options)?);
+    }
+    println!("{} field pictures written:", written.len());
     for f in &written {
         println!("  {}", f.display());
     }
