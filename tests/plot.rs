@@ -454,6 +454,10 @@ fn field_picture_errors_say_what_exists() {
         &["plot", d, "--field", "c", "--range", "1,0"],
         &["colour range 1..0"],
     );
+    fails(
+        &["plot", d, "--field", "c", "--range", "-1"],
+        &["--range: expected two numbers LOW,HIGH, got 1"],
+    );
     // A snapshot listed in the collection but gone: the error names it; nothing was drawn.
     std::fs::remove_file(dir.path().join("fields_0001.vtu")).unwrap();
     fails(

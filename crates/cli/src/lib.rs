@@ -102,6 +102,7 @@ enum Command {
             long,
             value_name = "T,T,...",
             value_delimiter = ',',
+            allow_hyphen_values = true,
             requires = "field"
         )]
         times: Option<Vec<f64>>,
@@ -110,13 +111,30 @@ enum Command {
             long,
             value_name = "LOW,HIGH",
             value_delimiter = ',',
+            allow_hyphen_values = true,
             requires = "field"
         )]
         range: Option<Vec<f64>>,
         /// Also write every field picture as SVG.
         #[arg(long, requires = "field")]
         svg: bool,
+        /// Size of the field pictures in pixels, WIDTHxHEIGHT.
+        #[arg(long, value_name = "WxH", default_value = "800x640", value_parser = parse_size, requires = "field")]
+        size: (u32, u32),
     },
+}
+
+/// `WIDTHxHEIGHT` in pixels, each from 200 to 8000.
+fn parse_size(text: &str) -> Result<(u32, u32), String> {
+    let bad =
+        || format!("'{text}': expected WIDTHxHEIGHT in pixels, e.g. 800x640, each 200 to 8000");
+    let (w, h) = text.split_once(['x', 'X']).ok_or_else(bad)?;
+    let w: u32 = w.trim().parse().map_err(|_| bad())?;
+    let h: u32 = h.trim().parse().map_err(|_| bad())?;
+    if !(200..=8000).contains(&w) || !(200..=8000).contains(&h) {
+        return Err(bad());
+    }
+    Ok((w, h))
 }
 
 /// Exit code of a run stopped by Ctrl-C or SIGTERM (128 + SIGINT, the shell convention).
@@ -154,11 +172,18 @@ pub fn main() -> ExitCode {
             times,
             range,
             svg,
+            size,
         } => {
             if field.is_empty() {
                 plot_cmd::plot(&dir, out.as_deref())
             } else {
-                plot_cmd::fields(&dir, out.as_deref(), &field, times, range, svg)
+                let choice = plot_cmd::FieldChoice {
+                    times,
+                    range,
+                    svg,
+                    size,
+                };
+                plot_cmd::fields(&dir, out.as_deref(), &field, choice)
             }
         }
     };

@@ -1,4 +1,5 @@
-//! `dilata plot DIR` (history figures, or field pictures with `--field`), and the figures `dilata run` draws when it ends.
+//! `dilata plot DIR` (history figures, or field pictures with `--field`), and the figures
+//! `dilata run` draws when it ends.
 
 use std::path::Path;
 
@@ -19,16 +20,32 @@ pub fn plot(dir: &Path, out: Option<&Path>) -> anyhow::Result<()> {
     Ok(())
 }
 
-/// `dilata plot DIR --field NAME [--times ..] [--range LOW,HIGH] [--svg] [--out OUT]`: colour
-/// maps of each field, one per chosen snapshot.
+/// Choices of `dilata plot --field`, as given on the command line.
+pub struct FieldChoice {
+    /// `--times`.
+    pub times: Option<Vec<f64>>,
+    /// `--range` (must be two numbers).
+    pub range: Option<Vec<f64>>,
+    /// `--svg`.
+    pub svg: bool,
+    /// `--size`.
+    pub size: (u32, u32),
+}
+
+/// `dilata plot DIR --field NAME [--times ..] [--range LOW,HIGH] [--svg] [--size WxH]
+/// [--out OUT]`: colour maps of each field, one per chosen snapshot.
 pub fn fields(
     dir: &Path,
     out: Option<&Path>,
     fields: &[String],
-    times: Option<Vec<f64>>,
-    range: Option<Vec<f64>>,
-    svg: bool,
+    choice: FieldChoice,
 ) -> anyhow::Result<()> {
+    let FieldChoice {
+        times,
+        range,
+        svg,
+        size,
+    } = choice;
     let range = match range.as_deref() {
         None => None,
         Some(&[lo, hi]) => Some((lo, hi)),
@@ -47,6 +64,7 @@ pub fn fields(
             times: times.clone(),
             range,
             svg,
+            size,
             out: out.map(Path::to_path_buf),
             ..FieldPlotOptions::new(field)
         };
