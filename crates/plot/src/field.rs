@@ -2,8 +2,9 @@
 //! `fields.pvd` and `.vtu` files (read back with `dilata_io::read_pvd` / `read_vtu`).
 //!
 //! Every cell is drawn as filled polygons: linear cells whole, quadratic cells split at their
-//! mid-edge (and centre) nodes into four or five pieces, each piece filled with the colour of the
-//! mean of its corner values. The colour range is the same in every picture of one call (the
+//! mid-edge (and centre) nodes into four or five pieces; every piece is split again 3 × 3 with
+//! values interpolated from its corners (linearly on triangles, bilinearly on quadrilaterals),
+//! and each small polygon is filled with the colour of the mean of its corner values. The colour range is the same in every picture of one call (the
 //! smallest and largest value over all pictures drawn, or the range asked for), so pictures of
 //! one field compare directly. Colours: [`crate::colour`].
 
@@ -353,8 +354,8 @@ fn polygons(path: &Path, snap: &VtuSnapshot, values: &[f64]) -> Result<Vec<Piece
                     (p[0], p[1])
                 })
                 .collect();
-            let mean = part.iter().map(|&k| values[nodes[k]]).sum::<f64>() / part.len() as f64;
-            out.push((corners, mean));
+            let corner_values: Vec<f64> = part.iter().map(|&k| values[nodes[k]]).collect();
+            subdivide(&corners, &corner_values, &mut out);
         }
     }
     if let Some(p) = snap.points.iter().position(|p| p[2] != 0.0) {
@@ -367,6 +368,60 @@ fn polygons(path: &Path, snap: &VtuSnapshot, values: &[f64]) -> Result<Vec<Piece
         return Err(field_error(path, "no 2D cells to draw"));
     }
     Ok(out)
+}
+
+/// Sub-pieces per edge of every piece: a piece is drawn as `SUBDIVISION²` smaller triangles or
+/// quadrilaterals, their values interpolated linearly (triangles) or bilinearly
+/// (quadrilaterals) from the piece's corner values, each filled with the mean of its corners.
+const SUBDIVISION: usize = 3;
+
+/// Split a triangle or quadrilateral piece (corners in order) into `SUBDIVISION²` smaller ones
+/// and push them with their mean values.
+fn subdivide(corners: &[(f64, f64)], values: &[f64], out: &mut Vec<Piece>) {
+    let k = SUBDIVISION;
+    let kf = k as f64;
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    if corners.len() == 3 {
+        // Point (i, j) = p0 + (i/k)(p1 − p0) + (j/k)(p2 − p0), i + j ≤ k.
+        let at = |i: usize, j: usize| {
+            let (a, b) = (i as f64 / kf, j as f64 / kf);
+            let w = [1.0 - a - b, a, b];
+            let x = (0..3).map(|n| w[n] * corners[n].0).sum::<f64>();
+            let y = (0..3).map(|n| w[n] * corners[n].1).sum::<f64>();
+            let v = (0..3).map(|n| w[n] * values[n]).sum::<f64>();
+            ((x, y), v)
+        };
+        let mut push = |tri: [(usize, usize); 3]| {
+            let pts: Vec<((f64, f64), f64)> = tri.iter().map(|&(i, j)| at(i, j)).collect();
+            let vals: Vec<f64> = pts.iter().map(|p| p.1).collect();
+            out.push((pts.iter().map(|p| p.0).collect(), mean(&vals)));
+        };
+        for j in 0..k {
+            for i in 0..k - j {
+                push([(i, j), (i + 1, j), (i, j + 1)]);
+                if i + j + 2 <= k {
+                    push([(i + 1, j), (i + 1, j + 1), (i, j + 1)]);
+                }
+            }
+        }
+    } else {
+        // Bilinear map of the unit square onto the corners 0, 1, 2, 3.
+        let at = |i: usize, j: usize| {
+            let (u, v) = (i as f64 / kf, j as f64 / kf);
+            let w = [(1.0 - u) * (1.0 - v), u * (1.0 - v), u * v, (1.0 - u) * v];
+            let x = (0..4).map(|n| w[n] * corners[n].0).sum::<f64>();
+            let y = (0..4).map(|n| w[n] * corners[n].1).sum::<f64>();
+            let val = (0..4).map(|n| w[n] * values[n]).sum::<f64>();
+            ((x, y), val)
+        };
+        for j in 0..k {
+            for i in 0..k {
+                let pts = [at(i, j), at(i + 1, j), at(i + 1, j + 1), at(i, j + 1)];
+                let vals: Vec<f64> = pts.iter().map(|p| p.1).collect();
+                out.push((pts.iter().map(|p| p.0).collect(), mean(&vals)));
+            }
+        }
+    }
 }
 
 /// Smallest and largest finite value over all pictures (a flat field gets a span of its own).
@@ -572,6 +627,37 @@ mod tests {
             assert_eq!(used, (0..n).collect::<Vec<_>>(), "type {kind}");
         }
         assert!(pieces(3).is_none());
+    }
+
+    #[test]
+    fn subdivision_covers_the_piece_and_interpolates() {
+        // Triangle: 9 pieces of a ninth of the area each; the values of a linear field are
+        // reproduced (mean of the sub-triangle's corners = value at its centroid).
+        let tri = [(0.0, 0.0), (3.0, 0.0), (0.0, 3.0)];
+        let f = |x: f64, y: f64| 1.0 + 2.0 * x - y;
+        let vals: Vec<f64> = tri.iter().map(|p| f(p.0, p.1)).collect();
+        let mut out = Vec::new();
+        subdivide(&tri, &vals, &mut out);
+        assert_eq!(out.len(), 9);
+        let area = |p: &[(f64, f64)]| {
+            let n = p.len();
+            0.5 * (0..n)
+                .map(|i| p[i].0 * p[(i + 1) % n].1 - p[(i + 1) % n].0 * p[i].1)
+                .sum::<f64>()
+        };
+        for (poly, v) in &out {
+            assert!((area(poly) - 0.5).abs() < 1e-12, "{poly:?}");
+            let cx = poly.iter().map(|p| p.0).sum::<f64>() / 3.0;
+            let cy = poly.iter().map(|p| p.1).sum::<f64>() / 3.0;
+            assert!((v - f(cx, cy)).abs() < 1e-12);
+        }
+        // Quadrilateral: 9 pieces covering it.
+        let quad = [(0.0, 0.0), (3.0, 0.0), (3.0, 3.0), (0.0, 3.0)];
+        let mut out = Vec::new();
+        subdivide(&quad, &[0.0, 1.0, 1.0, 0.0], &mut out);
+        assert_eq!(out.len(), 9);
+        let total: f64 = out.iter().map(|(p, _)| area(p)).sum();
+        assert!((total - 9.0).abs() < 1e-12);
     }
 
     #[test]
