@@ -27,7 +27,13 @@ fn example(name: &str) -> String {
 
 #[test]
 fn every_example_checks() {
-    for name in ["charging_particle", "bilayer_strip", "notched_plate"] {
+    for name in [
+        "charging_particle",
+        "bilayer_strip",
+        "notched_plate",
+        "spinodal_quench",
+        "misfit_precipitate",
+    ] {
         let (ok, stdout, stderr) = dilata(&["check", &example(name)]);
         assert!(ok, "{name}: {stderr}");
         assert!(stdout.contains("no problems found"), "{stdout}");

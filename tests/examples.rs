@@ -248,3 +248,213 @@ fn periodic_layer_ripple_decays_at_the_stress_enhanced_rate() {
         "{half_spread} vs {amp}"
     );
 }
+
+/// Columns of `history.csv` by name.
+fn history_columns(dir: &Path, names: &[&str]) -> Vec<Vec<f64>> {
+    let text = std::fs::read_to_string(dir.join("history.csv")).unwrap();
+    let mut lines = text.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let at: Vec<usize> = names
+        .iter()
+        .map(|n| header.iter().position(|h| h == n).unwrap())
+        .collect();
+    let mut out = vec![Vec::new(); names.len()];
+    for line in lines.filter(|l| !l.is_empty()) {
+        let f: Vec<&str> = line.split(',').collect();
+        for (k, &i) in at.iter().enumerate() {
+            out[k].push(f[i].parse().unwrap());
+        }
+    }
+    out
+}
+
+/// Largest drift of the amount from its initial value, relative to it.
+fn amount_drift(amount: &[f64]) -> f64 {
+    amount
+        .iter()
+        .map(|a| (a - amount[0]).abs() / amount[0].abs())
+        .fold(0.0, f64::max)
+}
+
+/// Largest rise of the free energy from one accepted step to the next, relative to its value.
+fn largest_energy_rise(energy: &[f64]) -> f64 {
+    energy
+        .windows(2)
+        .map(|p| (p[1] - p[0]) / p[0].abs())
+        .fold(f64::NEG_INFINITY, f64::max)
+}
+
+/// Spinodal decomposition of an even mixture in a closed square. What a user checks:
+/// * the amount stays what it was (zero-flux square; the discrete mass balance, common
+///   practice, no source) to 1e-12 relative;
+/// * the total free energy never rises between accepted steps (the Cahn–Hilliard equation
+///   dissipates its free energy: Cahn & Hilliard's gradient-energy model with a conserved flux
+///   down the gradient of the potential, J. W. Cahn, Acta Metall. 9 (1961) 795, from memory;
+///   the allowance of 1e-12 relative is the step control's documented round-off);
+/// * the phases separate towards the wells c = 0 and c = 1: all of the square but the
+///   interface band ends within 0.1 of a well (the band's width from the equilibrium profile),
+///   in equal amounts for the symmetric double well at c₀ = 0.5 (lever rule,
+///   common practice, no source);
+/// * after the separation the pattern coarsens: the interface length falls (common practice,
+///   no source).
+#[test]
+fn spinodal_quench_separates_and_coarsens_with_conserved_amount() {
+    let (model, summary, dir) = run_example("spinodal_quench");
+    let cols = history_columns(
+        dir.path(),
+        &[
+            "time_s",
+            "amount_mol",
+            "free_energy_j",
+            "fraction_above_mean",
+            "interface_measure",
+        ],
+    );
+    let (time, amount, energy, above, interface) =
+        (&cols[0], &cols[1], &cols[2], &cols[3], &cols[4]);
+    let drift = amount_drift(amount);
+    let rise = largest_energy_rise(energy);
+    println!(
+        "spinodal: {} steps, amount drift {drift:.2e}, largest energy rise {rise:.2e}, \
+         energy {:.4} -> {:.4}",
+        summary.steps,
+        energy[0],
+        energy.last().unwrap()
+    );
+    assert!(drift < 1e-12, "amount drift {drift:e}");
+    assert!(rise <= 1e-12, "free energy rose by {rise:e}");
+    assert!(*energy.last().unwrap() < 0.5 * energy[0]);
+
+    let (dofs, fields) = build_dofs(&model);
+    let c = nodal_field(&model.mesh, &dofs, fields.c, &summary.final_solution);
+    let near_wells =
+        c.iter().filter(|&&v| !(0.1..=0.9).contains(&v)).count() as f64 / c.len() as f64;
+    // What is not near a well is interface: with the equilibrium profile ½[1 + tanh(x/δ)],
+    // δ = √(2κ/W) (tests/phase_separation.rs, acceptance 1), c runs from 0.1 to 0.9 over a band
+    // 2δ artanh(0.8) wide, so the band covers the interface length times that width.
+    let (kappa, w, side) = (1.0_f64, 1.0_f64, 48.0_f64);
+    let band = 2.0 * (2.0 * kappa / w).sqrt() * 0.8_f64.atanh();
+    let length = *interface.last().unwrap();
+    let expected = 1.0 - length * band / (side * side);
+    let rich = *above.last().unwrap();
+    println!(
+        "final: {near_wells:.3} of the nodes within 0.1 of a well (interface length {length:.1} \
+         × band {band:.3} leaves {expected:.3}); area fraction above the mean {rich:.3}"
+    );
+    assert!(
+        (near_wells - expected).abs() < 0.05,
+        "{near_wells} of the nodes near a well, {expected} expected"
+    );
+    assert!((rich - 0.5).abs() < 0.05, "rich-phase fraction {rich}");
+
+    let at = |t: f64| time.iter().position(|&s| (s - t).abs() < 1e-9).unwrap();
+    let (early, late) = (interface[at(40.0)], *interface.last().unwrap());
+    println!("interface measure at t = 40: {early:.2}, at the end: {late:.2}");
+    assert!(late < 0.8 * early, "no coarsening: {early} -> {late}");
+}
+
+/// Radius where `c` crosses 0.5 along the nodes `(s·dir)`, s ≥ 0, from the corner; linear
+/// interpolation between neighbouring nodes on the ray.
+fn crossing_radius(model: &Model, c: &[f64], dir: [f64; 2]) -> f64 {
+    let mut ray: Vec<(f64, f64)> = (0..model.mesh.n_points())
+        .filter_map(|i| {
+            let p = model.mesh.points[i];
+            let s = p[0] * dir[0] + p[1] * dir[1];
+            let off = (p[0] - s * dir[0]).abs() + (p[1] - s * dir[1]).abs();
+            (off < 1e-9).then_some((s, c[i]))
+        })
+        .collect();
+    ray.sort_by(|a, b| a.0.total_cmp(&b.0));
+    for w in ray.windows(2) {
+        if w[0].1 >= 0.5 && w[1].1 < 0.5 {
+            return w[0].0 + (w[0].1 - 0.5) / (w[0].1 - w[1].1) * (w[1].0 - w[0].0);
+        }
+    }
+    panic!("no crossing of c = 0.5 along {dir:?}");
+}
+
+/// Misfitting precipitate in a supersaturated matrix. What a user checks:
+/// * the amount is conserved (closed edges; discrete mass balance, common practice, no source)
+///   and the free energy never rises (as for the spinodal example);
+/// * the particle stays round and grows until the matrix is nearly depleted; its final radius
+///   follows from the amount by the lever rule with the measured particle and matrix
+///   concentrations (mass balance, common practice, no source);
+/// * the particle is squeezed: the hydrostatic stress at its centre is compressive and agrees
+///   with the closed form of a misfitting cylinder in a concentric free cylinder of the same
+///   area as the quarter square (plane strain, misfit along all three axes; the elasticity
+///   solution of tests/eshelby_inclusion.rs, whose infinite-matrix limit is Eshelby's,
+///   Proc. R. Soc. A 241 (1957) 376), with the uniform swelling of the matrix adding
+///   σ_zz = −E ε_m (ε_zz = 0).
+#[test]
+fn misfit_precipitate_grows_round_and_is_compressed() {
+    let (model, summary, dir) = run_example("misfit_precipitate");
+    let cols = history_columns(dir.path(), &["amount_mol", "free_energy_j"]);
+    let (amount, energy) = (&cols[0], &cols[1]);
+    let drift = amount_drift(amount);
+    let rise = largest_energy_rise(energy);
+    println!(
+        "precipitate: {} steps, amount drift {drift:.2e}, largest energy rise {rise:.2e}",
+        summary.steps
+    );
+    assert!(drift < 1e-12, "amount drift {drift:e}");
+    assert!(rise <= 1e-12, "free energy rose by {rise:e}");
+
+    let (dofs, fields) = build_dofs(&model);
+    let c = nodal_field(&model.mesh, &dofs, fields.c, &summary.final_solution);
+    let side = 32.0;
+    let corner = |px: f64, py: f64| {
+        (0..model.mesh.n_points())
+            .find(|&i| {
+                (model.mesh.points[i][0] - px).abs() < 1e-9
+                    && (model.mesh.points[i][1] - py).abs() < 1e-9
+            })
+            .unwrap()
+    };
+    let (centre, far) = (corner(0.0, 0.0), corner(side, side));
+    let (c_p, c_m) = (c[centre], c[far]);
+    let r_x = crossing_radius(&model, &c, [1.0, 0.0]);
+    let r_y = crossing_radius(&model, &c, [0.0, 1.0]);
+    let r_d = crossing_radius(&model, &c, [0.5_f64.sqrt(), 0.5_f64.sqrt()]);
+    // Quarter particle: amount = c_m (L² − π R²/4) + c_p π R²/4.
+    let r_lever = (4.0 / std::f64::consts::PI * (amount.last().unwrap() - c_m * side * side)
+        / (c_p - c_m))
+        .sqrt();
+    println!(
+        "particle c {c_p:.4}, matrix c {c_m:.4}; radius along x {r_x:.3}, y {r_y:.3}, \
+         diagonal {r_d:.3}; lever rule {r_lever:.3} (initial 8)"
+    );
+    assert!(r_x > 10.0, "the particle did not grow: radius {r_x}");
+    assert!(
+        (r_x - r_y).abs() < 1e-6 * r_x,
+        "x and y differ: {r_x} {r_y}"
+    );
+    assert!((r_d - r_x).abs() < 0.03 * r_x, "not round: {r_x} vs {r_d}");
+    assert!(
+        (r_lever - r_x).abs() < 0.03 * r_lever,
+        "{r_x} vs lever {r_lever}"
+    );
+    assert!(c_m < 0.03, "matrix not depleted: {c_m}");
+
+    // Hydrostatic stress at the centre, read back from the last snapshot.
+    let entries = dilata_io::read_pvd(&dir.path().join("fields.pvd")).unwrap();
+    let snap = dilata_io::read_vtu(&entries.last().unwrap().1).unwrap();
+    let sh = snap.point_array("hydrostatic_stress").unwrap().values[centre];
+    let (e, nu, omega) = (100.0, 0.3, 0.03);
+    let (l, g) = (
+        e * nu / ((1.0 + nu) * (1.0 - 2.0 * nu)),
+        e / (2.0 * (1.0 + nu)),
+    );
+    let eps = omega * (c_p - c_m) / 3.0;
+    let r_out = 2.0 * side / std::f64::consts::PI.sqrt();
+    // u = A r inside, C r + D/r outside; traction continuity at r_x, free surface at r_out.
+    let d = r_x * r_x * (2.0 * (l + g) * eps + l * eps) / (2.0 * (l + 2.0 * g));
+    let c_coef = g * d / ((l + g) * r_out * r_out);
+    let strain = c_coef + d / (r_x * r_x) - eps;
+    let s_in = 2.0 * (l + g) * strain - l * eps;
+    let s_zz = 2.0 * l * strain - (l + 2.0 * g) * eps;
+    let expected = (2.0 * s_in + s_zz) / 3.0 - e * omega * c_m / 3.0 / 3.0;
+    let rel = (sh - expected) / expected;
+    println!("hydrostatic stress at the centre {sh:.4}, closed form {expected:.4} (rel {rel:.2e})");
+    assert!(sh < 0.0, "the particle is not compressed: {sh}");
+    assert!(rel.abs() < 0.05, "centre stress {sh} vs {expected}");
+}

@@ -85,14 +85,56 @@ enum Command {
         no_plot: bool,
     },
     /// Draw the history of a run (DIR/history.csv) as PNG and SVG figures: concentration, peak
-    /// stresses, energies and step size against time, stage changes marked.
+    /// stresses, energies and step size against time, stage changes marked. With --field: colour
+    /// maps of a nodal field of a 2D run instead, one PNG per snapshot.
     Plot {
         /// Results directory of a run.
         dir: PathBuf,
         /// Directory for the figures (default: DIR).
         #[arg(long, value_name = "OUT")]
         out: Option<PathBuf>,
+        /// Draw this point array of the snapshots (`c`, `mu`, `hydrostatic_stress`, ...; one
+        /// component of a vector or tensor as `u[0]`); repeat for several fields.
+        #[arg(long, value_name = "NAME")]
+        field: Vec<String>,
+        /// Only the snapshots nearest to these times in seconds (comma-separated; default: all).
+        #[arg(
+            long,
+            value_name = "T,T,...",
+            value_delimiter = ',',
+            allow_hyphen_values = true,
+            requires = "field"
+        )]
+        times: Option<Vec<f64>>,
+        /// Colour range LOW,HIGH (default: smallest to largest value over the pictures drawn).
+        #[arg(
+            long,
+            value_name = "LOW,HIGH",
+            value_delimiter = ',',
+            allow_hyphen_values = true,
+            requires = "field"
+        )]
+        range: Option<Vec<f64>>,
+        /// Also write every field picture as SVG.
+        #[arg(long, requires = "field")]
+        svg: bool,
+        /// Size of the field pictures in pixels, WIDTHxHEIGHT.
+        #[arg(long, value_name = "WxH", default_value = "800x640", value_parser = parse_size, requires = "field")]
+        size: (u32, u32),
     },
+}
+
+/// `WIDTHxHEIGHT` in pixels, each from 200 to 8000.
+fn parse_size(text: &str) -> Result<(u32, u32), String> {
+    let bad =
+        || format!("'{text}': expected WIDTHxHEIGHT in pixels, e.g. 800x640, each 200 to 8000");
+    let (w, h) = text.split_once(['x', 'X']).ok_or_else(bad)?;
+    let w: u32 = w.trim().parse().map_err(|_| bad())?;
+    let h: u32 = h.trim().parse().map_err(|_| bad())?;
+    if !(200..=8000).contains(&w) || !(200..=8000).contains(&h) {
+        return Err(bad());
+    }
+    Ok((w, h))
 }
 
 /// Exit code of a run stopped by Ctrl-C or SIGTERM (128 + SIGINT, the shell convention).
@@ -123,7 +165,27 @@ pub fn main() -> ExitCode {
             threads,
             no_plot,
         } => scenario_cmd::demo(&out, threads, !no_plot),
-        Command::Plot { dir, out } => plot_cmd::plot(&dir, out.as_deref()),
+        Command::Plot {
+            dir,
+            out,
+            field,
+            times,
+            range,
+            svg,
+            size,
+        } => {
+            if field.is_empty() {
+                plot_cmd::plot(&dir, out.as_deref())
+            } else {
+                let choice = plot_cmd::FieldChoice {
+                    times,
+                    range,
+                    svg,
+                    size,
+                };
+                plot_cmd::fields(&dir, out.as_deref(), &field, choice)
+            }
+        }
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,9 +1,10 @@
-//! `dilata plot DIR`, and the figures `dilata run` draws when it ends.
+//! `dilata plot DIR` (history figures, or field pictures with `--field`), and the figures
+//! `dilata run` draws when it ends.
 
 use std::path::Path;
 
 use anyhow::Context;
-use dilata_plot::{HistoryTable, PlotOptions, HISTORY_FILE};
+use dilata_plot::{FieldPlotOptions, HistoryTable, PlotOptions, HISTORY_FILE};
 
 /// `dilata plot DIR [--out OUT]`: figures of `DIR/history.csv`.
 pub fn plot(dir: &Path, out: Option<&Path>) -> anyhow::Result<()> {
@@ -13,6 +14,63 @@ pub fn plot(dir: &Path, out: Option<&Path>) -> anyhow::Result<()> {
     }
     let written = draw(dir, out)?;
     println!("{} figures written:", written.len());
+    for f in &written {
+        println!("  {}", f.display());
+    }
+    Ok(())
+}
+
+/// Choices of `dilata plot --field`, as given on the command line.
+pub struct FieldChoice {
+    /// `--times`.
+    pub times: Option<Vec<f64>>,
+    /// `--range` (must be two numbers).
+    pub range: Option<Vec<f64>>,
+    /// `--svg`.
+    pub svg: bool,
+    /// `--size`.
+    pub size: (u32, u32),
+}
+
+/// `dilata plot DIR --field NAME [--times ..] [--range LOW,HIGH] [--svg] [--size WxH]
+/// [--out OUT]`: colour maps of each field, one per chosen snapshot.
+pub fn fields(
+    dir: &Path,
+    out: Option<&Path>,
+    fields: &[String],
+    choice: FieldChoice,
+) -> anyhow::Result<()> {
+    let FieldChoice {
+        times,
+        range,
+        svg,
+        size,
+    } = choice;
+    let range = match range.as_deref() {
+        None => None,
+        Some(&[lo, hi]) => Some((lo, hi)),
+        Some(other) => anyhow::bail!(
+            "--range: expected two numbers LOW,HIGH, got {} ({other:?})",
+            other.len()
+        ),
+    };
+    if let Some(out) = out {
+        std::fs::create_dir_all(out)
+            .with_context(|| format!("creating the figure directory {}", out.display()))?;
+    }
+    let mut written = Vec::new();
+    for field in fields {
+        let options = FieldPlotOptions {
+            times: times.clone(),
+            range,
+            svg,
+            size,
+            out: out.map(Path::to_path_buf),
+            ..FieldPlotOptions::new(field)
+        };
+        written.extend(dilata_plot::plot_field_dir(dir, &options)?);
+    }
+    println!("{} field pictures written:", written.len());
     for f in &written {
         println!("  {}", f.display());
     }

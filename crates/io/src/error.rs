@@ -1,4 +1,4 @@
-//! The error type of the writers.
+//! The error type of the writers and readers.
 
 use std::path::PathBuf;
 
@@ -90,6 +90,14 @@ pub enum IoError {
         /// The encoder's error.
         #[source]
         source: vtkio::xml::Error,
+    },
+    /// A result file being read back is missing or not what this crate writes.
+    #[error("{}: {message}", path.display())]
+    Read {
+        /// The file being read.
+        path: PathBuf,
+        /// What is wrong.
+        message: String,
     },
     /// A time value in a collection is NaN or infinite.
     #[error("{}: time {time} of entry '{file}' is not finite", path.display())]

@@ -5,7 +5,7 @@
 //! (zlib-compressed, base64, 64-bit headers, Float64 data), [`PvdWriter`] keeps a `.pvd`
 //! collection of such files for a time series, and [`write_atomic`] is the one way every file
 //! here reaches the disk (temporary file, sync, rename), so that no reader ever sees a
-//! half-written file.
+//! half-written file. [`read_pvd`] and [`read_vtu`] read a run's snapshots back (for figures).
 //!
 //! This crate knows meshes and arrays of numbers, not the physics that produced them.
 //!
@@ -33,10 +33,12 @@ mod atomic;
 mod error;
 pub mod json;
 mod pvd;
+mod read;
 mod vtu;
 
 pub use atomic::write_atomic;
 pub use error::{Association, IoError};
 pub use pvd::{format_time, PvdWriter};
+pub use read::{read_pvd, read_vtu, PointArray, VtuSnapshot};
 pub use vtu::{vtk_cell_type, write_vtu, FieldData, FieldKind, REGION_ARRAY};
 pub mod scenario;

@@ -2,8 +2,9 @@
 //!
 //! Figures of a run: the `history.csv` that `dilata run` writes, drawn against time as PNG and
 //! SVG files (concentration, peak stresses, energies, step size), with the changes of
-//! loading-program stage marked by dashed lines. Reads only the history file; knows nothing of
-//! meshes, fields or solvers (it uses `dilata-io` only to write files atomically).
+//! loading-program stage marked by dashed lines; and, for a 2D run, colour maps of one nodal
+//! field per snapshot ([`plot_field_dir`]), read back from the run's `fields.pvd` and `.vtu`
+//! files through `dilata-io`. Knows nothing of solvers or physics.
 //!
 //! Text is drawn with a font compiled into the library (Go Regular, BSD-3-clause, see
 //! `crates/plot/fonts/LICENSE`), so drawing needs no system library or font file. In the SVG
@@ -22,6 +23,8 @@
 //! assert_eq!(written.len(), 4);
 //! ```
 
+pub mod colour;
+mod field;
 mod figure;
 mod table;
 
@@ -32,6 +35,7 @@ use plotters::backend::{BitMapBackend, SVGBackend};
 use plotters::drawing::IntoDrawingArea;
 use plotters::style::FontStyle;
 
+pub use field::{plot_field_dir, FieldPlotOptions, FIELDS_FILE};
 pub use figure::{format_tick, FigureSpec, FIGURES};
 pub use table::{HistoryTable, STAGE_COLUMN, TIME_COLUMN};
 
@@ -80,6 +84,34 @@ pub enum PlotError {
         /// The library's message.
         message: String,
     },
+    /// A results directory or snapshot that cannot give field pictures (missing folder,
+    /// missing collection, a time outside the snapshots, a bad colour range).
+    #[error("{}: {message}", path.display())]
+    Field {
+        /// The folder or file concerned.
+        path: PathBuf,
+        /// What is wrong.
+        message: String,
+    },
+    /// The field asked for does not exist in a snapshot, or needs a component index.
+    #[error("field '{field}': {message}")]
+    FieldName {
+        /// The field as asked for.
+        field: String,
+        /// What is wrong, with the names that exist.
+        message: String,
+    },
+    /// Field pictures are drawn for 2D runs only.
+    #[error("{}: field pictures are drawn for 2D runs only, but {what}", path.display())]
+    Not2d {
+        /// The snapshot.
+        path: PathBuf,
+        /// What makes it three-dimensional.
+        what: String,
+    },
+    /// A snapshot or the collection could not be read back.
+    #[error("cannot read a snapshot: {0}")]
+    Snapshot(Box<dilata_io::IoError>),
     /// A figure file could not be written (the error names the file and the failed operation).
     #[error("cannot write the figure: {0}")]
     Write(Box<dilata_io::IoError>),
