@@ -535,3 +535,34 @@ reject_energy_rise = true
     }
     assert_eq!(pairs, 33);
 }
+
+/// Snapshots at listed times only (`[output] times` without `every`): one at t = 0, one at each
+/// listed time (the steps land on them) and one at the end, not one per step after the last
+/// listed time (a bug found with the field pictures: an exhausted list compared infinity with
+/// infinity).
+#[test]
+fn listed_output_times_give_exactly_those_snapshots() {
+    let text = strip(
+        8.0,
+        16,
+        1.0,
+        0.5,
+        "0.5 + 0.01*cos(x)",
+        r#"
+[[stage]]
+name = "grow"
+duration = 10.0
+[output]
+times = [1.0, 2.5]
+"#,
+    );
+    let (_model, summary, dir) = run_text(&text);
+    let pvd = std::fs::read_to_string(dir.path().join("fields.pvd")).unwrap();
+    let times: Vec<f64> = pvd
+        .split("timestep=\"")
+        .skip(1)
+        .map(|s| s.split('"').next().unwrap().parse().unwrap())
+        .collect();
+    assert!(summary.steps > 5);
+    assert_eq!(times, vec![0.0, 1.0, 2.5, 10.0], "{pvd}");
+}

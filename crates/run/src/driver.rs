@@ -567,7 +567,9 @@ pub fn run_with(
                 if d.row.peak_principal > st.max_principal.0 {
                     st.max_principal = (d.row.peak_principal, report.t);
                 }
-                let hit_output = (report.t - t_out).abs() <= 1e-12 * t_out.abs().max(1.0);
+                // Once the listed times are used up `t_out` is infinite and hits nothing.
+                let hit_output =
+                    t_out.is_finite() && (report.t - t_out).abs() <= 1e-12 * t_out.abs().max(1.0);
                 let ends = reason != "duration" || report.t >= t_end * (1.0 - 1e-14);
                 if hit_output || ends {
                     snapshot(
