@@ -150,8 +150,8 @@ fn symmetric_form_is_solved_in_one_or_two_iterations() {
 
 /// An indefinite `c` block (a non-convex energy, `G = −0.8 M + L/2` at a large time step): `G`
 /// is negative on the smoothest grid mode (`L`'s smallest eigenvalue on 12 × 10 is about 0.14:
-/// `−0.8 (1 + 0.014) + 0.07 < 0`) and positive on the roughest (`L` about 7.9: `−0.8·1.79 + 3.93
-/// > 0`), so static pivots with `+` signs for `c` meet wrong signs. With the `c` signs left
+/// `−0.8 (1 + 0.014) + 0.07 < 0`) and positive on the roughest (`L` about 7.9:
+/// `−0.8·1.79 + 3.93 > 0`), so static pivots with `+` signs for `c` meet wrong signs. With the `c` signs left
 /// unknown (0) the factorisation pivots (Bunch–Kaufman within supernodes), and the exactly
 /// symmetric form is solved in one or two GMRES iterations without the LU; with `+` signs the
 /// same matrix needs the LU fallback or many iterations.
