@@ -329,3 +329,78 @@ fn in_plane_swelling_needs_plane_strain() {
     ));
     assert!(e.contains("in_plane") && e.contains("all_axes"), "{e}");
 }
+
+/// Phase-separation keys: the double well needs both of its parameters and refuses the
+/// lattice's interaction; well keys without the double well; a body without mechanics refuses
+/// elastic and swelling keys, displacement conditions and a stress stop rule; noise needs a
+/// non-negative amplitude; an indefinite gradient-energy tensor is refused. Each message is
+/// located in the file (checked for the first and for the noise: `case.toml:21:9`).
+#[test]
+fn phase_separation_keys_are_checked() {
+    let well = |extra: &str| {
+        with(
+            "diffusivity = 1e-12\n",
+            &format!("diffusivity = 1e-12\nfree_energy = \"double_well\"\nmobility = \"dilute\"\n{extra}"),
+        )
+    };
+    let e = error_of(&well("well_height = 1.0\n"));
+    assert!(
+        e.contains("case.toml:") && e.contains("needs well_concentrations"),
+        "{e}"
+    );
+    let e = error_of(&well("well_concentrations = [0.2, 0.8]\n"));
+    assert!(e.contains("needs well_height"), "{e}");
+    let e = error_of(&well(
+        "well_height = 1.0\nwell_concentrations = [0.8, 0.2]\n",
+    ));
+    assert!(e.contains("c_b - c_a must be positive"), "{e}");
+    let e = error_of(&with(
+        "diffusivity = 1e-12\n",
+        "diffusivity = 1e-12\nwell_height = 1.0\n",
+    ));
+    assert!(e.contains("need free_energy = \"double_well\""), "{e}");
+    let e = error_of(&with(
+        "diffusivity = 1e-12\n",
+        "diffusivity = 1e-12\ngradient_energy = [[1.0, 0.0, 0.0], [0.0, -1.0, 0.0], [0.0, 0.0, 1.0]]\n",
+    ));
+    assert!(e.contains("positive semi-definite"), "{e}");
+    let e = error_of(&with(
+        "[initial]\nconcentration = 100.0\n",
+        "[initial]\nconcentration = 100.0\nnoise = { amplitude = -1.0, seed = 3 }\n",
+    ));
+    assert!(
+        e.contains("case.toml:21:9:") && e.contains("non-negative"),
+        "{e}"
+    );
+    // Without mechanics.
+    let no_mech = with(
+        "element = \"quad4\" }\n",
+        "element = \"quad4\" }\nmechanics = false\n",
+    );
+    let e = error_of(&no_mech);
+    assert!(
+        e.contains("young_modulus, poisson_ratio, partial_molar_volume have no effect"),
+        "{e}"
+    );
+    let bare = no_mech
+        .replace("young_modulus = 10e9\n", "")
+        .replace("poisson_ratio = 0.3\n", "")
+        .replace("partial_molar_volume = 3e-6\n", "");
+    let e = error_of(&bare);
+    assert!(
+        e.contains("boundary 'left': u_x need a displacement field"),
+        "{e}"
+    );
+    let free = bare
+        .replace("[[boundary]]\non = \"left\"\nu_x = 0.0\n", "")
+        .replace("[[boundary]]\non = \"bottom\"\nu_y = 0.0\n", "");
+    let stop = free.replace(
+        "duration = 10.0\n",
+        "duration = 10.0\nstop = { when = \"peak_hydrostatic_stress\", value = 1e6 }\n",
+    );
+    let e = error_of(&stop);
+    assert!(e.contains("needs body.mechanics = true"), "{e}");
+    // And the bare body without mechanics is accepted.
+    let model = build_model(free, "case.toml", Path::new(".")).unwrap();
+    check_model(&model).unwrap();
+}
