@@ -696,7 +696,7 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
 pub const ENERGY_ROUND_OFF: f64 = 1e-12;
 
 /// The symmetric-form solver or the direct LU (AMD in 2D, nested dissection in 3D), or GMRES
-/// with ILU(0).
+/// with ILU(0); threaded only in 3D.
 fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver> {
     let ordering = match model.mode {
         GeometryMode::ThreeD => Ordering::NestedDissection,
@@ -713,7 +713,16 @@ fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver>
     build_solver_with(
         kind,
         SolverConfig {
-            parallelism: par,
+            // In 2D the factors are small and their supernodes thin: threads in the
+            // factorisation, the triangular solves and the Krylov products cost more than they
+            // save (measured, docs/performance.md: spinodal benchmark to t = 150, 120 s with a
+            // threaded solver against 60 s with a sequential one and threaded assembly; the
+            // axisymmetric particle 17.5 s against 15.3 s). 3D keeps the threads.
+            parallelism: if model.mode == GeometryMode::ThreeD {
+                par
+            } else {
+                Parallelism::Sequential
+            },
             ..SolverConfig::default()
         },
     )
