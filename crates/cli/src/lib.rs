@@ -47,7 +47,7 @@ enum Command {
         /// Results directory (default: dilata-out/<scenario name>).
         #[arg(long, value_name = "DIR")]
         out: Option<PathBuf>,
-        /// Worker threads for assembly and factorisation (default: all cores).
+        /// Worker threads for assembly (and, in 3D, for the linear solver; default: all cores).
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
         /// Do not draw the history figures at the end (see `dilata plot`).
@@ -64,7 +64,7 @@ enum Command {
         /// the orders must not change).
         #[arg(long)]
         force: bool,
-        /// Worker threads for assembly and factorisation (default: all cores).
+        /// Worker threads for assembly (and, in 3D, for the linear solver; default: all cores).
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
         /// Do not draw the history figures at the end.
@@ -77,7 +77,7 @@ enum Command {
         /// Results directory (created if missing).
         #[arg(long, value_name = "DIR", default_value = "dilata-out/demo")]
         out: PathBuf,
-        /// Worker threads for assembly and factorisation (default: all cores).
+        /// Worker threads for assembly (and, in 3D, for the linear solver; default: all cores).
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
         /// Do not draw the history figures at the end (see `dilata plot`).
