@@ -750,16 +750,7 @@ fields = false
         c_in = C0 + DC,
     );
     let model = dilata_run::build_model(text, "inclusion.toml", std::path::Path::new(".")).unwrap();
-    let dir = tempfile::tempdir().unwrap();
-    let summary = dilata_run::run(
-        &model,
-        &dilata_run::RunOptions {
-            out: dir.path().to_path_buf(),
-            threads: Some(1),
-        },
-        &mut |_| {},
-    )
-    .unwrap();
+    let (summary, _dir) = common::run_in_tempdir(&model, 1).unwrap();
     let (dofs, fields) = dilata_run::build_dofs(&model);
     let x = &summary.final_solution;
     let s = setup(

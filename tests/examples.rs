@@ -5,7 +5,9 @@ use std::path::Path;
 
 use dilata_material::elastic::hydrostatic;
 use dilata_physics::coupled_post::{recover_coupled_nodal, CoupledPost};
-use dilata_run::{build_dofs, load_model, nodal_field, run, Model, RunOptions, RunSummary};
+use dilata_run::{build_dofs, load_model, nodal_field, Model, RunSummary};
+
+mod common;
 
 fn run_example(name: &str) -> (Model, RunSummary, tempfile::TempDir) {
     let path = Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -13,16 +15,7 @@ fn run_example(name: &str) -> (Model, RunSummary, tempfile::TempDir) {
         .join(name)
         .join("scenario.toml");
     let model = load_model(&path).unwrap();
-    let dir = tempfile::tempdir().unwrap();
-    let summary = run(
-        &model,
-        &RunOptions {
-            out: dir.path().to_path_buf(),
-            threads: Some(1),
-        },
-        &mut |_| {},
-    )
-    .unwrap();
+    let (summary, dir) = common::run_in_tempdir(&model, 1).unwrap();
     (model, summary, dir)
 }
 

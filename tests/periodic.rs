@@ -22,7 +22,7 @@ use dilata_mesh::generate::{rectangle, RectangleParams};
 use dilata_mesh::periodic::{link_boundaries, BoundaryPair};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::elasticity::{mode_stiffness, ElasticityKernel};
-use dilata_run::{build_dofs, nodal_field, run, RunOptions};
+use dilata_run::{build_dofs, nodal_field};
 
 use common::periodic::{model, nodal_c, scenario, A, C0, D, L};
 
@@ -50,16 +50,7 @@ fn a_cosine_profile_decays_at_the_fourier_rate() {
         );
         let model = model(&text);
         assert_eq!(model.links.n_linked(), (n + 1) + 3 - 1);
-        let dir = tempfile::tempdir().unwrap();
-        let summary = run(
-            &model,
-            &RunOptions {
-                out: dir.path().to_path_buf(),
-                threads: Some(1),
-            },
-            &mut |_| {},
-        )
-        .unwrap();
+        let (summary, _dir) = common::run_in_tempdir(&model, 1).unwrap();
         let t = summary.final_time;
         assert!((t - tau).abs() < 1e-9 * tau, "t = {t}, tau = {tau}");
         let c = nodal_c(&model, &summary.final_solution);
@@ -133,16 +124,7 @@ fn a_swelling_layer_periodic_in_x_and_y_has_the_constrained_layer_stress() {
             "[time]\nfixed_step = 1.0e-6\n[output]\nfields = false",
         );
         let model = model(&text);
-        let dir = tempfile::tempdir().unwrap();
-        let summary = run(
-            &model,
-            &RunOptions {
-                out: dir.path().to_path_buf(),
-                threads: Some(1),
-            },
-            &mut |_| {},
-        )
-        .unwrap();
+        let (summary, _dir) = common::run_in_tempdir(&model, 1).unwrap();
         let (dofs, fields) = build_dofs(&model);
         let u = nodal_field(&model.mesh, &dofs, fields.u, &summary.final_solution);
         let c = nodal_field(&model.mesh, &dofs, fields.c, &summary.final_solution);
@@ -348,16 +330,7 @@ fn a_periodic_run_is_identical_on_one_and_two_threads() {
     assert_eq!(model.mesh.n_cells(), 1792);
     let mut results = Vec::new();
     for threads in [1, 2] {
-        let dir = tempfile::tempdir().unwrap();
-        let summary = run(
-            &model,
-            &RunOptions {
-                out: dir.path().to_path_buf(),
-                threads: Some(threads),
-            },
-            &mut |_| {},
-        )
-        .unwrap();
+        let (summary, dir) = common::run_in_tempdir(&model, threads).unwrap();
         let history = std::fs::read_to_string(dir.path().join("history.csv")).unwrap();
         results.push((summary.final_solution, history));
     }
@@ -396,16 +369,7 @@ fn a_held_potential_across_a_periodic_pair_matches_the_closed_body() {
             "concentration = 1000.0",
         );
         let model = model(&text);
-        let dir = tempfile::tempdir().unwrap();
-        let summary = run(
-            &model,
-            &RunOptions {
-                out: dir.path().to_path_buf(),
-                threads: Some(1),
-            },
-            &mut |_| {},
-        )
-        .unwrap();
+        let (summary, _dir) = common::run_in_tempdir(&model, 1).unwrap();
         nodal_c(&model, &summary.final_solution)
     };
     let linked = run_c(r#"periodic = ["x"]"#);
@@ -461,16 +425,7 @@ fields = false
         h = L / 8.0
     );
     let model = model(&text);
-    let dir = tempfile::tempdir().unwrap();
-    let summary = run(
-        &model,
-        &RunOptions {
-            out: dir.path().to_path_buf(),
-            threads: Some(1),
-        },
-        &mut |_| {},
-    )
-    .unwrap();
+    let (summary, _dir) = common::run_in_tempdir(&model, 1).unwrap();
     let (dofs, fields) = build_dofs(&model);
     let u = nodal_field(&model.mesh, &dofs, fields.u, &summary.final_solution);
     let (e_mod, nu) = (50.0e9, 0.25);
@@ -515,16 +470,7 @@ fn mixed_orders_on_a_periodic_quadratic_mesh() {
         ),
     );
     let model = model(&text);
-    let dir = tempfile::tempdir().unwrap();
-    let summary = run(
-        &model,
-        &RunOptions {
-            out: dir.path().to_path_buf(),
-            threads: Some(1),
-        },
-        &mut |_| {},
-    )
-    .unwrap();
+    let (summary, _dir) = common::run_in_tempdir(&model, 1).unwrap();
     let (dofs, fields) = build_dofs(&model);
     let x = &summary.final_solution;
     let u = nodal_field(&model.mesh, &dofs, fields.u, x);

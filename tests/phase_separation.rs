@@ -8,22 +8,15 @@
 
 use std::path::Path;
 
-use dilata_run::{build_dofs, build_model, nodal_field, run, Model, RunOptions, RunSummary};
+use dilata_run::{build_dofs, build_model, nodal_field, Model, RunSummary};
+
+mod common;
 
 /// Run a scenario given as text (single thread) and return the model, the summary and the
 /// results folder.
 fn run_text(text: &str) -> (Model, RunSummary, tempfile::TempDir) {
     let model = build_model(text.to_string(), "test.toml", Path::new(".")).unwrap();
-    let dir = tempfile::tempdir().unwrap();
-    let summary = run(
-        &model,
-        &RunOptions {
-            out: dir.path().to_path_buf(),
-            threads: Some(1),
-        },
-        &mut |_| {},
-    )
-    .unwrap();
+    let (summary, dir) = common::run_in_tempdir(&model, 1).unwrap();
     (model, summary, dir)
 }
 
@@ -50,6 +43,27 @@ fn history(dir: &Path) -> Vec<std::collections::BTreeMap<String, String>> {
 
 fn column(rows: &[std::collections::BTreeMap<String, String>], name: &str) -> Vec<f64> {
     rows.iter().map(|r| r[name].parse().unwrap()).collect()
+}
+
+/// Largest `|a − a₀| / a₀` over a history of amounts.
+fn relative_drift(amount: &[f64]) -> f64 {
+    amount
+        .iter()
+        .map(|a| (a - amount[0]).abs() / amount[0])
+        .fold(0.0, f64::max)
+}
+
+/// The free energy of every row is at most the previous one plus the round-off allowance of
+/// `reject_energy_rise` (1e-12 of it).
+fn assert_energy_never_rises(energy: &[f64]) {
+    for pair in energy.windows(2) {
+        assert!(
+            pair[1] <= pair[0] + 1e-12 * pair[0].abs(),
+            "free energy rose from {} to {}",
+            pair[0],
+            pair[1]
+        );
+    }
 }
 
 /// Final nodal concentration and the node coordinates.
@@ -282,23 +296,13 @@ reject_energy_rise = true
     let rows = history(dir.path());
     let amount = column(&rows, "amount_mol");
     let energy = column(&rows, "free_energy_j");
-    let worst_drift = amount
-        .iter()
-        .map(|a| (a - amount[0]).abs() / amount[0])
-        .fold(0.0, f64::max);
+    let worst_drift = relative_drift(&amount);
     println!(
         "closed mixture: {} steps, amount drift {worst_drift:.2e}",
         rows.len() - 1
     );
     assert!(worst_drift < 1e-12, "amount drift {worst_drift:e}");
-    for pair in energy.windows(2) {
-        assert!(
-            pair[1] <= pair[0] + 1e-12 * pair[0].abs(),
-            "free energy rose from {} to {}",
-            pair[0],
-            pair[1]
-        );
-    }
+    assert_energy_never_rises(&energy);
     // It did separate: the energy fell well below the mixed state's, and an interface exists.
     let interface = column(&rows, "interface_measure");
     println!(
@@ -442,18 +446,8 @@ fields = false
     let rows = history(dir.path());
     let energy = column(&rows, "free_energy_j");
     let amount = column(&rows, "amount_mol");
-    for pair in energy.windows(2) {
-        assert!(
-            pair[1] <= pair[0] + 1e-12 * pair[0].abs(),
-            "free energy rose from {} to {}",
-            pair[0],
-            pair[1]
-        );
-    }
-    let drift = amount
-        .iter()
-        .map(|a| (a - amount[0]).abs() / amount[0])
-        .fold(0.0, f64::max);
+    assert_energy_never_rises(&energy);
+    let drift = relative_drift(&amount);
     println!(
         "benchmark 1 window: {} steps, F {:.4} -> {:.4}, amount drift {drift:.1e}",
         rows.len() - 1,
@@ -496,18 +490,8 @@ reject_energy_rise = true
     let rows = history(dir.path());
     let amount = column(&rows, "amount_mol");
     let energy = column(&rows, "free_energy_j");
-    let drift = amount
-        .iter()
-        .map(|a| (a - amount[0]).abs() / amount[0])
-        .fold(0.0, f64::max);
-    for pair in energy.windows(2) {
-        assert!(
-            pair[1] <= pair[0] + 1e-12 * pair[0].abs(),
-            "free energy rose from {} to {}",
-            pair[0],
-            pair[1]
-        );
-    }
+    let drift = relative_drift(&amount);
+    assert_energy_never_rises(&energy);
     println!(
         "periodic mixture: {} steps, drift {drift:.1e}, F {:.4} -> {:.4}",
         rows.len() - 1,

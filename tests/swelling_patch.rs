@@ -18,7 +18,9 @@ use std::path::Path;
 use dilata_material::chemical::GAS_CONSTANT;
 use dilata_material::elastic::hydrostatic;
 use dilata_physics::coupled_post::{recover_coupled_nodal, CoupledPost};
-use dilata_run::{build_dofs, build_model, nodal_field, run, RunOptions};
+use dilata_run::{build_dofs, build_model, nodal_field};
+
+mod common;
 
 const E: f64 = 10e9;
 const NU: f64 = 0.3;
@@ -123,16 +125,8 @@ fn uniform_swelling_is_exact_in_every_mode_and_element() {
                     Path::new("."),
                 )
                 .unwrap_or_else(|e| panic!("{label}: {e}"));
-                let dir = tempfile::tempdir().unwrap();
-                let summary = run(
-                    &model,
-                    &RunOptions {
-                        out: dir.path().to_path_buf(),
-                        threads: Some(1),
-                    },
-                    &mut |_| {},
-                )
-                .unwrap_or_else(|e| panic!("{label}: {e}"));
+                let (summary, _dir) =
+                    common::run_in_tempdir(&model, 1).unwrap_or_else(|e| panic!("{label}: {e}"));
                 let (dofs, fields) = build_dofs(&model);
                 let x = &summary.final_solution;
                 let mesh = &model.mesh;
@@ -224,16 +218,8 @@ fn in_plane_swelling_through_the_pipeline() {
                 1,
             );
             let model = build_model(text, "patch.toml", Path::new(".")).unwrap();
-            let dir = tempfile::tempdir().unwrap();
-            let summary = run(
-                &model,
-                &RunOptions {
-                    out: dir.path().to_path_buf(),
-                    threads: Some(1),
-                },
-                &mut |_| {},
-            )
-            .unwrap_or_else(|e| panic!("{label}: {e}"));
+            let (summary, _dir) =
+                common::run_in_tempdir(&model, 1).unwrap_or_else(|e| panic!("{label}: {e}"));
             let (dofs, fields) = build_dofs(&model);
             let x = &summary.final_solution;
             let mesh = &model.mesh;

@@ -171,3 +171,21 @@ pub fn coupled_dofs(
     };
     (dofs, fields)
 }
+
+/// Run `model` through the driver of `dilata run` (no progress output) into a fresh temporary
+/// folder, on `threads` threads; the folder lives as long as the returned handle.
+pub fn run_in_tempdir(
+    model: &dilata_run::Model,
+    threads: usize,
+) -> Result<(dilata_run::RunSummary, tempfile::TempDir), dilata_run::RunError> {
+    let dir = tempfile::tempdir().unwrap();
+    let summary = dilata_run::run(
+        model,
+        &dilata_run::RunOptions {
+            out: dir.path().to_path_buf(),
+            threads: Some(threads),
+        },
+        &mut |_| {},
+    )?;
+    Ok((summary, dir))
+}

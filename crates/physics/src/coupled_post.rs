@@ -205,6 +205,8 @@ pub fn coupled_integrals(
     let mut local = LocalFields::default();
     let mut coords = Vec::new();
     let mut sums = CoupledIntegrals::default();
+    // Concentration and weight of every quadrature point, for the volume above the mean.
+    let mut point_c: Vec<(f64, f64)> = Vec::new();
     for (id, kind, nodes) in mesh.cells() {
         let cv = cache.get(kind);
         coords.clear();
@@ -243,27 +245,19 @@ pub fn coupled_integrals(
             sums.chemical_energy += out.chemical_energy * w;
             sums.gradient_energy += out.gradient_energy * w;
             sums.gradient_norm += grad_c.norm() * w;
+            point_c.push((c, w));
         }
     }
-    // Second pass: the volume where c exceeds its mean.
+    // The volume where c exceeds its mean, from the point values kept above.
     let mean = if sums.volume > 0.0 {
         sums.amount / sums.volume
     } else {
         0.0
     };
-    for (id, kind, nodes) in mesh.cells() {
-        let cv = cache.get(kind);
-        coords.clear();
-        coords.extend(nodes.iter().map(|&p| mesh.points[p]));
-        cv.reinit(id, &coords)?;
-        local.gather(post, id, kind);
-        for q in 0..cv.n_points() {
-            let (c, _, _) = local.scalars_at(cv, q);
-            if c > mean {
-                sums.volume_above_mean += cv.jxw[q];
-            }
-        }
-    }
+    sums.volume_above_mean = point_c
+        .iter()
+        .filter(|(c, _)| *c > mean)
+        .fold(0.0, |sum, (_, w)| sum + w);
     Ok(sums)
 }
 

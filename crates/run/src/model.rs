@@ -387,6 +387,15 @@ fn build_orders(scenario: &Scenario, mesh: &Mesh, src: Source<'_>) -> Result<[us
     Ok(orders)
 }
 
+/// The keys of `(key, given)` pairs that are given, in order.
+pub(crate) fn given_keys(pairs: &[(&'static str, bool)]) -> Vec<&'static str> {
+    pairs
+        .iter()
+        .filter(|(_, set)| *set)
+        .map(|(k, _)| *k)
+        .collect()
+}
+
 fn tensor(v: &ScalarOrTensor) -> Matrix3<f64> {
     match v {
         ScalarOrTensor::Scalar(s) => Matrix3::identity() * *s,
@@ -521,11 +530,7 @@ fn build_law(
                 mat.plane_strain_swelling != PlaneStrainSwelling::AllAxes,
             ),
         ];
-        let given: Vec<&str> = mechanical
-            .iter()
-            .filter(|(_, set)| *set)
-            .map(|(k, _)| *k)
-            .collect();
+        let given = given_keys(&mechanical);
         if !given.is_empty() {
             return Err(fail(format!(
                 "{} have no effect with body.mechanics = false; remove them",

@@ -147,11 +147,7 @@ fn resolve(
             ("traction", b.traction.is_some()),
             ("pressure", b.pressure.is_some()),
         ];
-        let given: Vec<&str> = mechanical
-            .iter()
-            .filter(|(_, set)| *set)
-            .map(|(k, _)| *k)
-            .collect();
+        let given = crate::model::given_keys(&mechanical);
         if !given.is_empty() {
             return Err(fail(format!(
                 "{} need a displacement field, but body.mechanics = false",
