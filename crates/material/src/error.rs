@@ -31,6 +31,9 @@ pub enum ParameterError {
     /// would no longer reduce to Fick's law.
     #[error("chemical law at T = {chemical} K but mobility at T = {mobility} K")]
     TemperatureMismatch { chemical: f64, mobility: f64 },
+    /// A combination the law does not support.
+    #[error("{0}")]
+    Unsupported(&'static str),
     /// Invalid elastic constants.
     #[error(transparent)]
     Elastic(#[from] ElasticError),
@@ -52,6 +55,13 @@ pub enum RangeLaw {
     ConcentrationStiffness,
     /// The input itself: strain, concentration and potential gradient must be finite.
     Input,
+    /// Finite-strain kinematics: the volume ratio `J = det F` must stay positive.
+    Kinematics,
+    /// Flory–Huggins mixing of a gel, defined while the gel is swollen beyond its dry volume
+    /// (`J_dry > 1`).
+    GelMixing,
+    /// Swelling part of a large-volume-change host, `J_s = 1 + Ω (c − c_ref) > 0`.
+    HostSwelling,
 }
 
 impl std::fmt::Display for RangeLaw {
@@ -63,6 +73,9 @@ impl std::fmt::Display for RangeLaw {
             RangeLaw::LatticeGasMobility => "lattice-gas mobility",
             RangeLaw::ConcentrationStiffness => "concentration-dependent stiffness",
             RangeLaw::Input => "point input",
+            RangeLaw::Kinematics => "finite-strain kinematics",
+            RangeLaw::GelMixing => "gel mixing energy",
+            RangeLaw::HostSwelling => "host swelling",
         };
         f.write_str(s)
     }
@@ -81,6 +94,14 @@ pub enum RangeError {
         c: f64,
         lower: f64,
         upper: f64,
+    },
+    /// A volume ratio at or below the lowest value where `law` is defined (an inverted or
+    /// collapsed point).
+    #[error("{law}: volume ratio {ratio} at or below its bound {lower}")]
+    VolumeRatio {
+        law: RangeLaw,
+        ratio: f64,
+        lower: f64,
     },
     /// A NaN or infinite input.
     #[error("{law}: non-finite {quantity}")]

@@ -10,7 +10,8 @@
 //! energies: ideal dilute, lattice gas, double well), [`gradient`] (gradient energy of
 //! interfaces), [`mobility`] (mobility tensors `M(c)`), [`swelling`]
 //! (swelling strain and the stress-dependent chemical potential), [`coupled`] (the small-strain
-//! deformation–diffusion law at one point, all tangent blocks) and [`error`] (parameter errors
+//! deformation–diffusion law at one point, all tangent blocks), [`finite`] (finite-strain gel
+//! and large-volume-change host laws, total Lagrangian) and [`error`] (parameter errors
 //! and recoverable range errors).
 //!
 //! ```
@@ -26,6 +27,7 @@ pub mod chemical;
 pub mod coupled;
 pub mod elastic;
 pub mod error;
+pub mod finite;
 pub mod gradient;
 pub mod mobility;
 pub mod stiffness;

@@ -153,6 +153,16 @@ impl MobilityLaw {
         }
     }
 
+    /// Whether `M` is a multiple of the identity at every concentration.
+    pub fn is_isotropic(&self) -> bool {
+        let m = match &self.form {
+            Form::Dilute(p) => *p.diffusivity.matrix(),
+            Form::LatticeGas(p) => *p.diffusivity.matrix(),
+            Form::Constant(m) => *m,
+        };
+        (m - Matrix3::from_diagonal_element(m[(0, 0)])).amax() <= 1e-14 * m.amax()
+    }
+
     /// `M(c)` and `dM/dc` at `c` (mol/m³). The concentration-dependent forms refuse
     /// concentrations where `M` would be indefinite (closed intervals, see [`RangeLaw`]).
     pub fn evaluate(&self, c: f64) -> Result<MobilityState, RangeError> {

@@ -34,6 +34,7 @@ use dilata_fem::{
 use dilata_material::coupled::{CoupledPointLaw, PointInput};
 use dilata_material::elastic::Voigt;
 use dilata_material::error::RangeError;
+use dilata_material::finite::FiniteLaw;
 use nalgebra::Vector3;
 
 use crate::cellcache::{stiffness_degree, CellValuesCache};
@@ -70,10 +71,13 @@ pub enum CoupledError {
     },
 }
 
-/// The point law of every cell: one law per material and the material of each cell.
+/// The point law of every cell: one law per material and the material of each cell. All laws
+/// of a map share one kinematics: small-strain laws ([`LawMap::new`]) or finite-strain laws
+/// ([`LawMap::finite`], total Lagrangian, see [`crate::finite`]).
 #[derive(Clone, Debug, PartialEq)]
 pub struct LawMap {
     laws: Vec<CoupledPointLaw>,
+    finite: Vec<FiniteLaw>,
     law_of_cell: Vec<u32>,
 }
 
@@ -82,6 +86,7 @@ impl LawMap {
     pub fn uniform(law: CoupledPointLaw, n_cells: usize) -> Self {
         LawMap {
             laws: vec![law],
+            finite: Vec::new(),
             law_of_cell: vec![0; n_cells],
         }
     }
@@ -97,22 +102,78 @@ impl LawMap {
             law_of_cell.iter().all(|&i| (i as usize) < laws.len()),
             "law index out of range"
         );
-        LawMap { laws, law_of_cell }
+        LawMap {
+            laws,
+            finite: Vec::new(),
+            law_of_cell,
+        }
     }
 
-    /// The law of cell `cell`.
+    /// Finite-strain laws; `law_of_cell[i]` indexes `laws` for cell `i`.
+    ///
+    /// # Panics
+    /// As [`Self::new`].
+    pub fn finite(laws: Vec<FiniteLaw>, law_of_cell: Vec<u32>) -> Self {
+        assert!(!laws.is_empty(), "a law map needs at least one law");
+        assert!(
+            law_of_cell.iter().all(|&i| (i as usize) < laws.len()),
+            "law index out of range"
+        );
+        LawMap {
+            laws: Vec::new(),
+            finite: laws,
+            law_of_cell,
+        }
+    }
+
+    /// Whether the laws are finite-strain laws.
+    pub fn is_finite(&self) -> bool {
+        !self.finite.is_empty()
+    }
+
+    /// The small-strain law of cell `cell`.
+    ///
+    /// # Panics
+    /// For a finite-strain map (callers branch on [`Self::is_finite`] first).
     pub fn law(&self, cell: usize) -> &CoupledPointLaw {
+        assert!(
+            !self.is_finite(),
+            "small-strain law asked of a finite-strain law map"
+        );
         &self.laws[self.law_of_cell[cell] as usize]
     }
 
-    /// All laws, in the order given.
+    /// The finite-strain law of cell `cell`.
+    ///
+    /// # Panics
+    /// For a small-strain map.
+    pub fn finite_law(&self, cell: usize) -> &FiniteLaw {
+        assert!(
+            self.is_finite(),
+            "finite-strain law asked of a small-strain law map"
+        );
+        &self.finite[self.law_of_cell[cell] as usize]
+    }
+
+    /// All small-strain laws, in the order given (empty for a finite-strain map).
     pub fn laws(&self) -> &[CoupledPointLaw] {
         &self.laws
     }
 
-    /// Index into [`Self::laws`] of every cell.
+    /// All finite-strain laws, in the order given (empty for a small-strain map).
+    pub fn finite_laws(&self) -> &[FiniteLaw] {
+        &self.finite
+    }
+
+    /// Index into [`Self::laws`] (or [`Self::finite_laws`]) of every cell.
     pub fn law_of_cell(&self) -> &[u32] {
         &self.law_of_cell
+    }
+
+    /// Whether every chemical energy is convex in `c` (the potential row of a finite-strain
+    /// law is not of the small-strain form; reported as not convex).
+    pub fn all_convex(&self) -> bool {
+        !self.is_finite() && self.laws.iter().all(|l| l.parts().chemical.is_convex())
     }
 
     /// Largest scale of chemical-potential differences over the chemical laws, in J/mol
@@ -121,6 +182,7 @@ impl LawMap {
         self.laws
             .iter()
             .map(|l| l.parts().chemical.potential_scale())
+            .chain(self.finite.iter().map(|l| l.potential_scale()))
             .fold(0.0, f64::max)
     }
 }
@@ -145,11 +207,31 @@ pub struct CoupledKernel<'a> {
 
 /// Scratch of the coupled kernel.
 pub struct CoupledScratch {
-    cache: CellValuesCache,
-    u: Vec<f64>,
-    c: Vec<f64>,
-    c_rate: Vec<f64>,
-    mu: Vec<f64>,
+    pub(crate) cache: CellValuesCache,
+    pub(crate) u: Vec<f64>,
+    pub(crate) c: Vec<f64>,
+    pub(crate) c_rate: Vec<f64>,
+    pub(crate) mu: Vec<f64>,
+}
+
+impl CoupledKernel<'_> {
+    /// Copy the cell's `u`, `c`, rate `a0 c + h` and `μ` values into the scratch.
+    pub(crate) fn gather(&self, input: &CellInput<'_>, s: &mut CoupledScratch) {
+        let ru = self.dofs.local_range(self.fields.u, input.kind);
+        let rc = self.dofs.local_range(self.fields.c, input.kind);
+        let rm = self.dofs.local_range(self.fields.mu, input.kind);
+        let gather =
+            |range: std::ops::Range<usize>, into: &mut Vec<f64>, f: &dyn Fn(usize) -> f64| {
+                into.clear();
+                into.extend(input.dofs[range].iter().map(|&d| f(d)));
+            };
+        gather(ru, &mut s.u, &|d| self.solution[d]);
+        gather(rc.clone(), &mut s.c, &|d| self.solution[d]);
+        gather(rc, &mut s.c_rate, &|d| {
+            self.rate.a0 * self.solution[d] + self.rate.history[d]
+        });
+        gather(rm, &mut s.mu, &|d| self.solution[d]);
+    }
 }
 
 impl CellKernel for CoupledKernel<'_> {
@@ -176,23 +258,16 @@ impl CellKernel for CoupledKernel<'_> {
         s: &mut CoupledScratch,
         out: LocalOutput<'_>,
     ) -> Result<(), CoupledError> {
+        if self.laws.is_finite() {
+            return crate::finite::finite_cell_into(self, input, s, out);
+        }
+        self.gather(input, s);
         let cv = s.cache.get(input.kind);
         cv.reinit(input.id, input.coords)?;
         let nc = self.dofs.spec(self.fields.u).n_components;
         let ru = self.dofs.local_range(self.fields.u, input.kind);
         let rc = self.dofs.local_range(self.fields.c, input.kind);
         let rm = self.dofs.local_range(self.fields.mu, input.kind);
-        let gather =
-            |range: std::ops::Range<usize>, into: &mut Vec<f64>, f: &dyn Fn(usize) -> f64| {
-                into.clear();
-                into.extend(input.dofs[range].iter().map(|&d| f(d)));
-            };
-        gather(ru.clone(), &mut s.u, &|d| self.solution[d]);
-        gather(rc.clone(), &mut s.c, &|d| self.solution[d]);
-        gather(rc.clone(), &mut s.c_rate, &|d| {
-            self.rate.a0 * self.solution[d] + self.rate.history[d]
-        });
-        gather(rm.clone(), &mut s.mu, &|d| self.solution[d]);
         let n_loc = input.dofs.len();
         let (su, sc, sm) = (&cv.spaces[0], &cv.spaces[1], &cv.spaces[2]);
         let (nu, ncn, nmn) = (su.n_nodes(), sc.n_nodes(), sm.n_nodes());

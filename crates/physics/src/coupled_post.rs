@@ -36,8 +36,10 @@ use nalgebra::Vector3;
 use crate::cellcache::{stiffness_degree, CellValuesCache};
 use crate::coupled::{CoupledError, CoupledFields, LawMap};
 use crate::elasticity::strain_at;
+use crate::finite::deformation_gradient;
 use crate::poisson::facet_values;
 use crate::recovery::{cell_size, nodal_strain, nodal_values};
+use dilata_material::finite::{cauchy_voigt, principal_stretches, FiniteInput};
 
 /// The state of a coupled problem to post-process.
 #[derive(Clone, Copy, Debug)]
@@ -59,8 +61,22 @@ pub struct CoupledPost<'a> {
 pub struct CoupledNodal {
     /// Cauchy stress in Pa (Voigt `[xx, yy, zz, xy, yz, xz]`).
     pub stress: Vec<Voigt>,
-    /// Species flux `J = −M grad μ` in mol/(m² s).
+    /// Species flux `J = −M grad μ` in mol/(m² s) (in finite strain the nominal flux, per
+    /// reference area).
     pub flux: Vec<[f64; 3]>,
+    /// Finite-strain quantities (`None` for a small-strain law map).
+    pub finite: Option<FiniteNodal>,
+}
+
+/// Nodal values that only finite strain has, one entry per mesh node.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct FiniteNodal {
+    /// Nominal (first Piola–Kirchhoff) stress in Pa, rows `[xx, xy, xz, yx, yy, yz, zx, zy, zz]`.
+    pub nominal_stress: Vec<[f64; 9]>,
+    /// Principal stretches relative to the reference state, largest first.
+    pub stretches: Vec<[f64; 3]>,
+    /// Volume ratio to the stress-free, species-free state (`FiniteOutput::swelling_ratio`).
+    pub swelling_ratio: Vec<f64>,
 }
 
 /// Scalar invariants of nodal stresses, one entry per node.
@@ -94,6 +110,8 @@ pub struct CoupledIntegrals {
     pub gradient_norm: f64,
     /// Volume where `c` exceeds its mean `amount / volume` (quadrature points counted), in m³.
     pub volume_above_mean: f64,
+    /// Deformed volume `∫ det F dV₀` in m³ (finite strain; equal to `volume` in small strain).
+    pub deformed_volume: f64,
 }
 
 /// Nodal stress and flux by the projection of [`crate::recovery`]: every cell evaluates the
@@ -112,6 +130,11 @@ pub fn recover_coupled_nodal(
     let mut stress = vec![Voigt::zeros(); n];
     let mut flux = vec![[0.0; 3]; n];
     let mut count = vec![0u32; n];
+    let mut finite = post.laws.is_finite().then(|| FiniteNodal {
+        nominal_stress: vec![[0.0; 9]; n],
+        stretches: vec![[0.0; 3]; n],
+        swelling_ratio: vec![0.0; n],
+    });
     let orders = field_orders(post);
     let nc = post.dofs.spec(post.fields.u).n_components;
     let mut cache: Vec<CellValues> = Vec::new();
@@ -131,6 +154,55 @@ pub fn recover_coupled_nodal(
         cv.reinit(id, &coords)?;
         local.gather(post, id, kind);
         let size = cell_size(&coords);
+        if let Some(fin) = finite.as_mut() {
+            let law = post.laws.finite_law(id);
+            for (q, &node) in nodes.iter().enumerate() {
+                let r = cv.points[q][0];
+                let axis = post.mode == GeometryMode::Axisymmetric && r.abs() < 1e-12 * size;
+                let su = &cv.spaces[0];
+                let f = deformation_gradient(
+                    post.mode,
+                    su.grads(q),
+                    su.values(q),
+                    r,
+                    &local.u,
+                    nc,
+                    axis,
+                );
+                let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
+                let mu = local.mu_at(cv, q);
+                let out = law
+                    .evaluate(&FiniteInput {
+                        f,
+                        c,
+                        mu,
+                        grad_mu,
+                        grad_c,
+                    })
+                    .map_err(|source| CoupledError::Range {
+                        cell: id,
+                        point: q,
+                        source,
+                    })?;
+                let node = post.dofs.master_node(node);
+                stress[node] += cauchy_voigt(&out.stress, &f);
+                for d in 0..3 {
+                    flux[node][d] += out.flux[d];
+                }
+                for i in 0..3 {
+                    for k in 0..3 {
+                        fin.nominal_stress[node][3 * i + k] += out.stress[(i, k)];
+                    }
+                }
+                let st = principal_stretches(&f);
+                for d in 0..3 {
+                    fin.stretches[node][d] += st[d];
+                }
+                fin.swelling_ratio[node] += out.swelling_ratio;
+                count[node] += 1;
+            }
+            continue;
+        }
         let law = post.laws.law(id);
         for (q, &node) in nodes.iter().enumerate() {
             let strain = nodal_strain(
@@ -173,11 +245,30 @@ pub fn recover_coupled_nodal(
             }
         }
     }
+    if let Some(fin) = finite.as_mut() {
+        for (node, &k) in count.iter().enumerate() {
+            if k > 0 {
+                let inv = 1.0 / k as f64;
+                fin.nominal_stress[node].iter_mut().for_each(|v| *v *= inv);
+                fin.stretches[node].iter_mut().for_each(|v| *v *= inv);
+                fin.swelling_ratio[node] *= inv;
+            }
+        }
+    }
     for (node, master) in post.dofs.links().pairs() {
         stress[node] = stress[master];
         flux[node] = flux[master];
+        if let Some(fin) = finite.as_mut() {
+            fin.nominal_stress[node] = fin.nominal_stress[master];
+            fin.stretches[node] = fin.stretches[master];
+            fin.swelling_ratio[node] = fin.swelling_ratio[master];
+        }
     }
-    Ok(CoupledNodal { stress, flux })
+    Ok(CoupledNodal {
+        stress,
+        flux,
+        finite,
+    })
 }
 
 /// Hydrostatic, von Mises and largest principal stress of every entry of `stress`.
@@ -213,6 +304,46 @@ pub fn coupled_integrals(
         coords.extend(nodes.iter().map(|&p| mesh.points[p]));
         cv.reinit(id, &coords)?;
         local.gather(post, id, kind);
+        if post.laws.is_finite() {
+            let law = post.laws.finite_law(id);
+            for q in 0..cv.n_points() {
+                let w = cv.jxw[q];
+                let su = &cv.spaces[0];
+                let f = deformation_gradient(
+                    post.mode,
+                    su.grads(q),
+                    su.values(q),
+                    cv.points[q][0],
+                    &local.u,
+                    nc,
+                    false,
+                );
+                let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
+                let mu = local.mu_at(cv, q);
+                let out = law
+                    .evaluate(&FiniteInput {
+                        f,
+                        c,
+                        mu,
+                        grad_mu,
+                        grad_c,
+                    })
+                    .map_err(|source| CoupledError::Range {
+                        cell: id,
+                        point: q,
+                        source,
+                    })?;
+                sums.volume += w;
+                sums.deformed_volume += f.determinant() * w;
+                sums.amount += c * w;
+                sums.elastic_energy += out.elastic_energy * w;
+                sums.chemical_energy += out.chemical_energy * w;
+                sums.gradient_energy += out.gradient_energy * w;
+                sums.gradient_norm += grad_c.norm() * w;
+                point_c.push((c, w));
+            }
+            continue;
+        }
         let law = post.laws.law(id);
         for q in 0..cv.n_points() {
             let w = cv.jxw[q];
@@ -240,6 +371,7 @@ pub fn coupled_integrals(
                     source,
                 })?;
             sums.volume += w;
+            sums.deformed_volume += w;
             sums.amount += c * w;
             sums.elastic_energy += out.elastic_energy * w;
             sums.chemical_energy += out.chemical_energy * w;
@@ -372,8 +504,14 @@ impl LocalFields {
         fill(&mut self.mu, post.fields.mu);
     }
 
-    /// Concentration and potential gradient at point `q` of `cv` (spaces `[u, c, μ]`).
-    /// Concentration, potential gradient and concentration gradient at point `q`.
+    /// Potential at point `q` of `cv` (spaces `[u, c, μ]`).
+    fn mu_at(&self, cv: &CellValues, q: usize) -> f64 {
+        let vm = cv.spaces[2].values(q);
+        vm.iter().zip(&self.mu).map(|(n, m)| n * m).sum()
+    }
+
+    /// Concentration, potential gradient and concentration gradient at point `q` of `cv`
+    /// (spaces `[u, c, μ]`).
     fn scalars_at(&self, cv: &CellValues, q: usize) -> (f64, Vector3<f64>, Vector3<f64>) {
         let vc = cv.spaces[1].values(q);
         let c: f64 = vc.iter().zip(&self.c).map(|(n, c)| n * c).sum();

@@ -8,6 +8,7 @@ pub mod cellcache;
 pub mod coupled;
 pub mod coupled_post;
 pub mod elasticity;
+pub mod finite;
 pub mod norms;
 pub mod poisson;
 pub mod recovery;

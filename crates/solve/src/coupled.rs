@@ -437,7 +437,9 @@ impl DiscreteSystem for CoupledProblem<'_> {
     /// values are identities. `None` when `c` and `μ` have different orders.
     fn row_transform(&self) -> Option<RowTransform> {
         let (fc, fm) = (self.fields.c, self.fields.mu);
-        if self.dofs.spec(fc).order != self.dofs.spec(fm).order {
+        // Finite strain: the potential row of a gel is a constraint on the deformation and the
+        // mobility depends on it; the rearrangement gives no symmetric matrix.
+        if self.dofs.spec(fc).order != self.dofs.spec(fm).order || self.laws.is_finite() {
             return None;
         }
         let n = self.dofs.n_dofs();
@@ -446,16 +448,7 @@ impl DiscreteSystem for CoupledProblem<'_> {
         let mut signs = vec![1i8; n];
         // A non-convex chemical energy makes the (c, c) block of the symmetric form indefinite:
         // its pivots have no sign known in advance.
-        let c_sign = if self
-            .laws
-            .laws()
-            .iter()
-            .any(|l| !l.parts().chemical.is_convex())
-        {
-            0
-        } else {
-            1
-        };
+        let c_sign = if self.laws.all_convex() { 1 } else { 0 };
         for d in self.dofs.field_range(fc) {
             signs[d] = c_sign;
         }
@@ -531,10 +524,20 @@ impl TransientSystem for CoupledProblem<'_> {
     }
 
     /// Every nodal concentration must lie in the range of the chemical and mobility laws of
-    /// every cell it belongs to: the kernel only sees quadrature points, where an oscillating
+    /// every cell it belongs to (in finite strain: `FiniteLaw::check_concentration`): the kernel only sees quadrature points, where an oscillating
     /// field can still look admissible while a node has left the range.
     fn check_solution(&self, x: &[f64]) -> Result<(), String> {
         for (cell, kind, _) in self.mesh.cells() {
+            if self.laws.is_finite() {
+                let law = self.laws.finite_law(cell);
+                let range = self.dofs.local_range(self.fields.c, kind);
+                for &d in &self.dofs.cell_dofs(cell)[range] {
+                    if let Err(e) = law.check_concentration(x[d]) {
+                        return Err(format!("cell {cell}, nodal concentration: {e}"));
+                    }
+                }
+                continue;
+            }
             let law = self.laws.law(cell).parts();
             let range = self.dofs.local_range(self.fields.c, kind);
             for &d in &self.dofs.cell_dofs(cell)[range] {
