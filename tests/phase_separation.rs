@@ -12,38 +12,7 @@ use dilata_run::{build_dofs, build_model, nodal_field, Model, RunSummary};
 
 mod common;
 
-/// Run a scenario given as text (single thread) and return the model, the summary and the
-/// results folder.
-fn run_text(text: &str) -> (Model, RunSummary, tempfile::TempDir) {
-    let model = build_model(text.to_string(), "test.toml", Path::new(".")).unwrap();
-    let (summary, dir) = common::run_in_tempdir(&model, 1).unwrap();
-    (model, summary, dir)
-}
-
-/// Columns of `history.csv` by name.
-fn history(dir: &Path) -> Vec<std::collections::BTreeMap<String, String>> {
-    let text = std::fs::read_to_string(dir.join("history.csv")).unwrap();
-    let mut lines = text.lines();
-    let header: Vec<String> = lines
-        .next()
-        .unwrap()
-        .split(',')
-        .map(str::to_string)
-        .collect();
-    lines
-        .map(|l| {
-            header
-                .iter()
-                .cloned()
-                .zip(l.split(',').map(str::to_string))
-                .collect()
-        })
-        .collect()
-}
-
-fn column(rows: &[std::collections::BTreeMap<String, String>], name: &str) -> Vec<f64> {
-    rows.iter().map(|r| r[name].parse().unwrap()).collect()
-}
+use common::{column, history, run_text};
 
 /// Largest `|a − a₀| / a₀` over a history of amounts.
 fn relative_drift(amount: &[f64]) -> f64 {

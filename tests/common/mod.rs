@@ -189,3 +189,38 @@ pub fn run_in_tempdir(
     )?;
     Ok((summary, dir))
 }
+
+/// Build a scenario given as text and run it (single thread); returns the model, the summary and
+/// the results folder.
+pub fn run_text(text: &str) -> (dilata_run::Model, dilata_run::RunSummary, tempfile::TempDir) {
+    let model =
+        dilata_run::build_model(text.to_string(), "test.toml", std::path::Path::new(".")).unwrap();
+    let (summary, dir) = run_in_tempdir(&model, 1).unwrap();
+    (model, summary, dir)
+}
+
+/// Rows of `history.csv` in `dir`, each a map from column name to text.
+pub fn history(dir: &std::path::Path) -> Vec<std::collections::BTreeMap<String, String>> {
+    let text = std::fs::read_to_string(dir.join("history.csv")).unwrap();
+    let mut lines = text.lines();
+    let header: Vec<String> = lines
+        .next()
+        .unwrap()
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    lines
+        .map(|l| {
+            header
+                .iter()
+                .cloned()
+                .zip(l.split(',').map(str::to_string))
+                .collect()
+        })
+        .collect()
+}
+
+/// One column of history rows, parsed.
+pub fn column(rows: &[std::collections::BTreeMap<String, String>], name: &str) -> Vec<f64> {
+    rows.iter().map(|r| r[name].parse().unwrap()).collect()
+}

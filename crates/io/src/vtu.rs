@@ -38,6 +38,9 @@ pub enum FieldKind {
     /// Order checked with the `vtk` Python package 9.7.2: vtkTensorPrincipalInvariants on a
     /// 6-component array gives the eigenvalues of the matrix built in exactly this order.
     SymTensor,
+    /// 9 values per entity, a full (non-symmetric) tensor row by row: XX, XY, XZ, YX, YY, YZ,
+    /// ZX, ZY, ZZ, in 2D too.
+    Tensor,
 }
 
 /// A named array of point or cell values.
@@ -272,6 +275,15 @@ fn build_attributes(
                     )));
                 }
                 (ElementType::Generic(6), field.values.clone())
+            }
+            FieldKind::Tensor => {
+                if field.values.len() != 9 * n {
+                    return Err(length_err(format!(
+                        "{} ({n} {entity} × 9 components)",
+                        9 * n
+                    )));
+                }
+                (ElementType::Generic(9), field.values.clone())
             }
         };
         out.push(Attribute::DataArray(DataArray {

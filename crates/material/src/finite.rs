@@ -499,6 +499,15 @@ impl FiniteLaw {
         }
     }
 
+    /// Chemical potential of the stress-free reference state where the law knows it (a gel:
+    /// free swelling at its reference stretch), as a starting guess.
+    pub fn reference_potential(&self) -> Option<f64> {
+        match self {
+            FiniteLaw::Gel(g) => Some(g.free_swelling_potential(g.p.reference_stretch)),
+            FiniteLaw::Host(_) => None,
+        }
+    }
+
     /// Whether the law has a gradient energy.
     pub fn has_gradient(&self) -> bool {
         match self {

@@ -1,7 +1,7 @@
 //! Checkpoints: the complete state of a run between two steps, written so that a resumed run
 //! continues bit for bit as if it had never stopped.
 //!
-//! # File format (version 2)
+//! # File format (version 3)
 //!
 //! `checkpoint_SSSSSSSS.dck` in the results folder (`S`: the number of accepted steps), UTF-8
 //! text, one `key value` pair per line in a fixed order (see [`Checkpoint`] for the meaning):
@@ -25,7 +25,7 @@ use crate::driver::StageOutcome;
 use crate::record::{HistoryRow, Probe};
 use crate::RunError;
 
-const MAGIC: &str = "dilata-checkpoint 2";
+const MAGIC: &str = "dilata-checkpoint 3";
 
 /// The state of a run between two steps.
 #[derive(Clone, Debug, PartialEq)]
@@ -212,6 +212,7 @@ fn row_fields(r: &HistoryRow) -> String {
         r.free_energy,
         r.fraction_above_mean,
         r.interface_measure,
+        r.volume,
     ];
     format!(
         "{} {} {} {} {} {}",
@@ -542,8 +543,8 @@ fn parse(input: &str) -> Result<Checkpoint, ParseError> {
 
 fn parse_row(r: &Lines<'_>, v: &str) -> Result<HistoryRow, ParseError> {
     let f: Vec<&str> = v.split(' ').collect();
-    if f.len() != 22 {
-        return r.err(format!("a history row has 22 fields, found {}", f.len()));
+    if f.len() != 23 {
+        return r.err(format!("a history row has 23 fields, found {}", f.len()));
     }
     let x = f[5..]
         .iter()
@@ -572,6 +573,7 @@ fn parse_row(r: &Lines<'_>, v: &str) -> Result<HistoryRow, ParseError> {
         free_energy: x[14],
         fraction_above_mean: x[15],
         interface_measure: x[16],
+        volume: x[17],
     })
 }
 

@@ -109,6 +109,8 @@ pub struct RunSummary {
 struct Derived {
     stress: Vec<dilata_material::elastic::Voigt>,
     flux: Vec<[f64; 3]>,
+    /// Nominal stress, stretches and swelling ratio (finite strain only).
+    finite: Option<dilata_physics::coupled_post::FiniteNodal>,
     row: HistoryRow,
 }
 
@@ -306,6 +308,7 @@ pub fn run_with(
                 mu: nodal_field(mesh, &problem.dofs, fields.mu, x),
                 stress: &d.stress,
                 flux: &d.flux,
+                finite: d.finite.as_ref(),
                 material: model.laws.law_of_cell(),
             },
             pvd,
@@ -326,6 +329,18 @@ pub fn run_with(
             for node in problem.dofs.field_nodes(fields.c) {
                 let d = problem.dofs.node_dof(fields.c, node, 0).expect("c node");
                 x0[d] = model.initial_c[node];
+            }
+            // A gel's reference state has a known potential: start the equilibrium from it.
+            for (cell, kind, _) in model.mesh.cells() {
+                if !model.laws.is_finite() {
+                    break;
+                }
+                if let Some(mu0) = model.laws.finite_law(cell).reference_potential() {
+                    let range = problem.dofs.local_range(fields.mu, kind);
+                    for &d in &problem.dofs.cell_dofs(cell)[range] {
+                        x0[d] = mu0;
+                    }
+                }
             }
             initial_equilibrium(model, &mut problem, solver.as_mut(), &mut x0, &pins[0])?;
             let d0 = post(&problem, &x0)?;
@@ -703,6 +718,8 @@ fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver>
         _ => Ordering::Amd,
     };
     let kind = match model.scenario.solver.linear {
+        // Finite strain has no symmetric form (CoupledProblem::row_transform): the LU directly.
+        LinearSolverName::Symmetric if model.laws.is_finite() => SolverKind::Lu(ordering),
         LinearSolverName::Symmetric => SolverKind::SymmetricForm(ordering),
         LinearSolverName::Direct if model.mode == GeometryMode::ThreeD => {
             SolverKind::Lu(Ordering::NestedDissection)
@@ -819,11 +836,13 @@ fn derive(model: &Model, problem: &CoupledProblem<'_>, x: &[f64]) -> Result<Deri
         free_energy: ints.elastic_energy + ints.chemical_energy + ints.gradient_energy,
         fraction_above_mean: ints.volume_above_mean / ints.volume,
         interface_measure,
+        volume: ints.deformed_volume,
         ..HistoryRow::default()
     };
     Ok(Derived {
         stress: nodal.stress,
         flux: nodal.flux,
+        finite: nodal.finite,
         row,
     })
 }

@@ -10,12 +10,14 @@ use dilata_fem::GeometryMode;
 use dilata_io::scenario::{
     Amount, BoundarySpec, Element, FreeEnergy, Geometry, Located, Material, MobilityKind, Noise,
     NumberOrFormula, PlaneStrainSwelling, ScalarOrTensor, Scenario, ScenarioError, Shape, StopRule,
+    Strain,
 };
 use dilata_material::chemical::{
     ChemicalLaw, DoubleWellParams, IdealDiluteParams, LatticeGasParams,
 };
 use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
 use dilata_material::elastic::{Isotropic, Stiffness, Voigt};
+use dilata_material::finite::{FiniteLaw, GelLaw, GelParams, HostLaw, HostParams};
 use dilata_material::gradient::GradientEnergy;
 use dilata_material::mobility::{
     Diffusivity, DiluteMobilityParams, LatticeGasMobilityParams, MobilityLaw,
@@ -118,11 +120,14 @@ pub fn build_model(text: String, file: &str, base: &Path) -> Result<Model, RunEr
             )));
         }
     }
+    if scenario.body.strain == Strain::Finite {
+        check_finite_body(&scenario, src)?;
+    }
     add_zones(&scenario, &mut mesh, src)?;
     let links = crate::periodic::build_links(&scenario, &mesh, mode, src)?;
     let orders = build_orders(&scenario, &mesh, src)?;
     let (laws, material_names) = build_laws(&scenario, &mesh, mode, src)?;
-    let initial_c = build_initial(&scenario, &mesh, src)?;
+    let initial_c = build_initial(&scenario, &mesh, &laws, src)?;
     let source = scenario.material[0].get_ref().source;
     for m in &scenario.material {
         let s = m.get_ref().source;
@@ -162,6 +167,50 @@ pub fn build_model(text: String, file: &str, base: &Path) -> Result<Model, RunEr
         source,
         stages,
     })
+}
+
+/// What finite strain does not (yet) combine with, refused before any computation.
+fn check_finite_body(scenario: &Scenario, src: Source<'_>) -> Result<(), RunError> {
+    let body = &scenario.body;
+    if !body.mechanics {
+        return Err(RunError::Scenario(src.error(
+            0..0,
+            "body.strain = \"finite\" needs body.mechanics = true (finite strain is about the \
+             deformation)",
+        )));
+    }
+    if let Some(p) = &body.periodic {
+        return Err(RunError::Scenario(src.error(
+            p.span(),
+            "periodic bodies are small-strain only in this version (body.strain = \"finite\")",
+        )));
+    }
+    if let Some(p) = &body.periodic_pairs {
+        return Err(RunError::Scenario(src.error(
+            p.span(),
+            "periodic bodies are small-strain only in this version (body.strain = \"finite\")",
+        )));
+    }
+    let all = scenario.boundary.iter().chain(
+        scenario
+            .stage
+            .iter()
+            .flat_map(|s| s.get_ref().boundary.iter()),
+    );
+    for b in all {
+        if b.get_ref().pressure.is_some() {
+            return Err(RunError::Scenario(src.error(
+                b.span(),
+                format!(
+                    "boundary '{}': pressure is not available in finite strain in this version \
+                     (it would follow the deformed surface); give a traction, which acts as a \
+                     nominal load per reference area",
+                    b.get_ref().on.get_ref()
+                ),
+            )));
+        }
+    }
+    Ok(())
 }
 
 fn element_kind(e: Element) -> CellKind {
@@ -369,11 +418,31 @@ fn build_orders(scenario: &Scenario, mesh: &Mesh, src: Source<'_>) -> Result<[us
         .max()
         .unwrap_or(1);
     let o = scenario.orders;
+    // A gel's incompressibility makes μ act as the pressure of a mixed u–p problem: it needs a
+    // stable pair (Taylor–Hood: u one order above c and μ), hence quadratic cells.
+    let gel = scenario.body.strain == Strain::Finite
+        && scenario
+            .material
+            .iter()
+            .any(|m| m.get_ref().free_energy == FreeEnergy::Gel);
+    let scalar_default = if gel { 1 } else { mesh_order };
     let orders = [
         o.u.unwrap_or(mesh_order),
-        o.c.unwrap_or(mesh_order),
-        o.mu.unwrap_or(mesh_order),
+        o.c.unwrap_or(scalar_default),
+        o.mu.unwrap_or(scalar_default),
     ];
+    if gel && orders[0] <= orders[2].max(orders[1]) {
+        return Err(RunError::Scenario(src.error(
+            0..0,
+            format!(
+                "a gel needs u of a higher order than c and mu (its incompressibility makes mu a \
+                 pressure; equal orders are unstable): got orders u {}, c {}, mu {}; use \
+                 quadratic cells (e.g. quad8, quad9, tet10, hex20, hex27) with the default \
+                 orders u 2, c 1, mu 1",
+                orders[0], orders[1], orders[2]
+            ),
+        )));
+    }
     for (name, order) in ["u", "c", "mu"].iter().zip(orders) {
         if order == 0 || order > mesh_order {
             return Err(RunError::Scenario(src.error(
@@ -550,7 +619,26 @@ fn build_law(
     };
     // Chemistry.
     let temperature = mat.temperature;
+    let gel_keys = [
+        ("solvent_molar_volume", mat.solvent_molar_volume.is_some()),
+        ("chi", mat.chi.is_some()),
+        ("reference_stretch", mat.reference_stretch.is_some()),
+    ];
+    let given = given_keys(&gel_keys);
+    if !given.is_empty() {
+        return Err(fail(format!(
+            "{} belong to free_energy = \"gel\"; remove them",
+            given.join(", ")
+        )));
+    }
     let chemical = match mat.free_energy {
+        FreeEnergy::Gel => {
+            return Err(fail(
+                "free_energy = \"gel\" needs body.strain = \"finite\" (a gel swells far beyond \
+                 small strain)"
+                    .into(),
+            ))
+        }
         FreeEnergy::Dilute => {
             if mat.interaction != 0.0 {
                 return Err(fail("interaction needs free_energy = \"lattice\"".into()));
@@ -606,6 +694,7 @@ fn build_law(
         FreeEnergy::Dilute => MobilityKind::Dilute,
         FreeEnergy::Lattice => MobilityKind::Lattice,
         FreeEnergy::DoubleWell => MobilityKind::Constant,
+        FreeEnergy::Gel => unreachable!("refused above"),
     });
     let diffusivity = || -> Result<Diffusivity, RunError> {
         let d = mat
@@ -661,8 +750,14 @@ fn build_laws(
     let mut laws = Vec::new();
     let mut names = Vec::new();
     let mut fill_rest = None;
+    let finite = scenario.body.strain == Strain::Finite;
+    let mut finite_laws = Vec::new();
     for (i, m) in scenario.material.iter().enumerate() {
-        laws.push(build_law(m, mode, scenario.body.mechanics, src)?);
+        if finite {
+            finite_laws.push(build_finite_law(m, mode, src)?);
+        } else {
+            laws.push(build_law(m, mode, scenario.body.mechanics, src)?);
+        }
         names.push(m.get_ref().name.clone());
         if m.get_ref().zones.is_empty() {
             if fill_rest.is_some() {
@@ -716,7 +811,145 @@ fn build_laws(
             }
         }
     }
+    if finite {
+        return Ok((LawMap::finite(finite_laws, owner), names));
+    }
     Ok((LawMap::new(laws, owner), names))
+}
+
+/// The finite-strain law of a material: a gel (`free_energy = "gel"`) or a large-volume-change
+/// host built from the usual keys (isotropic elasticity, partial molar volume, chemical law,
+/// isotropic mobility).
+fn build_finite_law(
+    m: &Located<Material>,
+    mode: GeometryMode,
+    src: Source<'_>,
+) -> Result<FiniteLaw, RunError> {
+    let span = m.span();
+    let mat = m.get_ref();
+    let fail = |msg: String| {
+        RunError::Scenario(src.error(span.clone(), format!("material '{}': {msg}", mat.name)))
+    };
+    let param = |e: &dyn std::fmt::Display| fail(e.to_string());
+    let not_here = |keys: &[(&'static str, bool)], why: &str| -> Result<(), RunError> {
+        let given = given_keys(keys);
+        if given.is_empty() {
+            Ok(())
+        } else {
+            Err(fail(format!("{} {why}; remove them", given.join(", "))))
+        }
+    };
+    not_here(
+        &[
+            ("stiffness", mat.stiffness.is_some()),
+            ("young_modulus_full", mat.young_modulus_full.is_some()),
+            ("expansion", mat.expansion.is_some()),
+            (
+                "plane_strain_swelling",
+                mat.plane_strain_swelling != PlaneStrainSwelling::AllAxes,
+            ),
+        ],
+        "are not available in finite strain (isotropic elasticity and swelling only)",
+    )?;
+    if mode == GeometryMode::PlaneStress {
+        return Err(fail(
+            "finite strain is offered in 3D, plane strain and axisymmetry, not plane stress".into(),
+        ));
+    }
+    if mat.free_energy == FreeEnergy::Gel {
+        not_here(
+            &[
+                ("young_modulus", mat.young_modulus.is_some()),
+                ("poisson_ratio", mat.poisson_ratio.is_some()),
+                ("bulk_modulus", mat.bulk_modulus.is_some()),
+                ("partial_molar_volume", mat.partial_molar_volume.is_some()),
+                (
+                    "stress_free_concentration",
+                    mat.stress_free_concentration != 0.0,
+                ),
+                ("standard_potential", mat.standard_potential != 0.0),
+                (
+                    "reference_concentration",
+                    mat.reference_concentration.is_some(),
+                ),
+                ("max_concentration", mat.max_concentration.is_some()),
+                ("interaction", mat.interaction != 0.0),
+                ("well_height", mat.well_height.is_some()),
+                ("well_concentrations", mat.well_concentrations.is_some()),
+                ("gradient_energy", mat.gradient_energy.is_some()),
+                ("mobility", mat.mobility.is_some()),
+                ("constant_mobility", mat.constant_mobility.is_some()),
+            ],
+            "do not apply to free_energy = \"gel\" (its keys: shear_modulus, \
+             solvent_molar_volume, chi, temperature, diffusivity, reference_stretch)",
+        )?;
+        let need = |v: Option<f64>, key: &str, what: &str| {
+            v.ok_or_else(|| fail(format!("free_energy = \"gel\" needs {key} ({what})")))
+        };
+        let diffusivity = match &mat.diffusivity {
+            Some(ScalarOrTensor::Scalar(d)) => *d,
+            Some(ScalarOrTensor::Tensor(_)) => {
+                return Err(fail(
+                    "a gel takes a scalar diffusivity (its solvent diffuses isotropically)".into(),
+                ))
+            }
+            None => {
+                return Err(fail(
+                    "free_energy = \"gel\" needs diffusivity (m^2/s)".into(),
+                ))
+            }
+        };
+        let law = GelLaw::new(GelParams {
+            shear_modulus: need(
+                mat.shear_modulus,
+                "shear_modulus",
+                "Pa, N k T of the network",
+            )?,
+            solvent_molar_volume: need(
+                mat.solvent_molar_volume,
+                "solvent_molar_volume",
+                "m^3/mol",
+            )?,
+            chi: need(mat.chi, "chi", "Flory-Huggins parameter")?,
+            temperature: mat.temperature,
+            diffusivity,
+            reference_stretch: need(
+                mat.reference_stretch,
+                "reference_stretch",
+                "isotropic stretch of the starting state from dry, > 1",
+            )?,
+        })
+        .map_err(|e| param(&e))?;
+        return Ok(FiniteLaw::Gel(law));
+    }
+    // Host: the small-strain reading of the material gives its chemical law, mobility and
+    // gradient energy (and checks their keys); elasticity and swelling are read again here.
+    let small = build_law(m, mode, true, src)?;
+    let elastic = match (
+        mat.young_modulus,
+        mat.poisson_ratio,
+        mat.bulk_modulus,
+        mat.shear_modulus,
+    ) {
+        (Some(e), Some(nu), None, None) => Isotropic::new(e, nu),
+        (None, None, Some(k), Some(g)) => Isotropic::from_bulk_shear(k, g),
+        _ => unreachable!("checked by build_law"),
+    }
+    .map_err(|e| param(&e))?;
+    let omega = mat.partial_molar_volume.ok_or_else(|| {
+        fail("finite strain needs partial_molar_volume (the swelling volume per mol)".into())
+    })?;
+    let parts = small.parts();
+    let law = HostLaw::new(HostParams {
+        elastic,
+        partial_molar_volume: omega,
+        c_ref: mat.stress_free_concentration,
+        chemical: parts.chemical,
+        mobility: parts.mobility,
+        gradient: parts.gradient,
+    })
+    .map_err(|e| param(&e))?;
+    Ok(FiniteLaw::Host(law))
 }
 
 /// Comma-separated list of names for messages.
@@ -754,7 +987,57 @@ impl SplitMix64 {
     }
 }
 
-fn build_initial(scenario: &Scenario, mesh: &Mesh, src: Source<'_>) -> Result<Vec<f64>, RunError> {
+/// The initial concentration: from `[initial]`, or for a body of gels from their reference
+/// stretch (`GelLaw::reference_concentration`), where `[initial]` must be left out.
+fn build_initial(
+    scenario: &Scenario,
+    mesh: &Mesh,
+    laws: &LawMap,
+    src: Source<'_>,
+) -> Result<Vec<f64>, RunError> {
+    let gel_of = |law: &FiniteLaw| match law {
+        FiniteLaw::Gel(g) => Some(g.reference_concentration()),
+        FiniteLaw::Host(_) => None,
+    };
+    let gels: Vec<Option<f64>> = laws.finite_laws().iter().map(gel_of).collect();
+    let any_gel = gels.iter().any(Option::is_some);
+    let Some(init) = &scenario.initial else {
+        if gels.is_empty() || !gels.iter().all(Option::is_some) {
+            return Err(RunError::Scenario(src.error(
+                0..0,
+                "no [initial] table: give [initial] concentration = ... (mol/m^3)",
+            )));
+        }
+        // Every node takes the reference content of the gels around it, which must agree.
+        let mut c = vec![f64::NAN; mesh.n_points()];
+        for (cell, _, nodes) in mesh.cells() {
+            let value = gels[laws.law_of_cell()[cell] as usize].expect("all gels");
+            for &n in nodes {
+                if c[n].is_nan() {
+                    c[n] = value;
+                } else if (c[n] - value).abs() > 1e-12 * value.abs() {
+                    return Err(RunError::Scenario(src.error(
+                        0..0,
+                        format!(
+                            "gels of different reference_stretch meet at node {n}: their \
+                             reference states differ there (give all gels one reference_stretch)"
+                        ),
+                    )));
+                }
+            }
+        }
+        // Nodes in no cell carry no unknowns of consequence.
+        c.iter_mut().filter(|v| v.is_nan()).for_each(|v| *v = 0.0);
+        return Ok(c);
+    };
+    if any_gel {
+        return Err(RunError::Scenario(src.error(
+            init.span(),
+            "a gel starts from its reference state, whose solvent content follows from \
+             reference_stretch; remove [initial]",
+        )));
+    }
+    let init = init.get_ref();
     let eval_all = |value: &Located<NumberOrFormula>,
                     nodes: &mut dyn Iterator<Item = usize>,
                     out: &mut [f64]|
@@ -778,7 +1061,6 @@ fn build_initial(scenario: &Scenario, mesh: &Mesh, src: Source<'_>) -> Result<Ve
         Ok(())
     };
     let mut c = vec![0.0; mesh.n_points()];
-    let init = &scenario.initial;
     eval_all(&init.concentration, &mut (0..mesh.n_points()), &mut c)?;
     for (zone, value) in &init.zones {
         let cells = mesh.regions.get(zone).ok_or_else(|| {

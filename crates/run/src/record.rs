@@ -16,9 +16,10 @@ use dilata_fem::FieldHandle;
 use dilata_io::{write_vtu, FieldData, FieldKind, IoError, PvdWriter};
 use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
 use dilata_mesh::Mesh;
+use dilata_physics::coupled_post::FiniteNodal;
 
 /// Columns of `history.csv`, in order (documented in docs/scenario.md).
-pub const HISTORY_COLUMNS: [&str; 22] = [
+pub const HISTORY_COLUMNS: [&str; 23] = [
     "time_s",
     "step",
     "stage",
@@ -41,6 +42,7 @@ pub const HISTORY_COLUMNS: [&str; 22] = [
     "free_energy_j",
     "fraction_above_mean",
     "interface_measure",
+    "volume_m3",
 ];
 
 /// One row of the history.
@@ -73,6 +75,9 @@ pub struct HistoryRow {
     /// `∫ |grad c| dV / (c_max − c_min)`: the interface area (3D, axisymmetric) or length per
     /// unit thickness (plane models) once the phases have separated; 0 for a uniform field.
     pub interface_measure: f64,
+    /// Volume of the deformed body `∫ det F dV₀` in m³ (per unit thickness in plane strain and
+    /// plane stress, over the revolution in axisymmetry); the undeformed volume in small strain.
+    pub volume: f64,
 }
 
 fn io_err(path: &Path, operation: &'static str) -> impl FnOnce(std::io::Error) -> IoError {
@@ -171,7 +176,7 @@ impl History {
     /// error, a diagnostic, with 7.
     pub fn append(&mut self, r: &HistoryRow) -> Result<(), IoError> {
         let line = format!(
-            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e}",
+            "{:.17e},{},{},{:.17e},{},{},{},{:.17e},{:.17e},{:.6e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e},{:.17e}",
             r.time,
             r.step,
             r.stage,
@@ -194,6 +199,7 @@ impl History {
             r.free_energy,
             r.fraction_above_mean,
             r.interface_measure,
+            r.volume,
         );
         self.0.line(&line)
     }
@@ -311,6 +317,8 @@ pub struct Snapshot<'a> {
     pub mu: Vec<f64>,
     pub stress: &'a [Voigt],
     pub flux: &'a [[f64; 3]],
+    /// Finite-strain arrays (`None` in small strain).
+    pub finite: Option<&'a FiniteNodal>,
     /// Material index of each cell.
     pub material: &'a [u32],
 }
@@ -357,6 +365,25 @@ pub fn write_snapshot(
             ),
         ]);
     }
+    if let Some(fin) = snap.finite {
+        points.extend([
+            FieldData::new(
+                "nominal_stress",
+                FieldKind::Tensor,
+                fin.nominal_stress.iter().flatten().copied().collect(),
+            ),
+            FieldData::new(
+                "stretch",
+                FieldKind::Vector,
+                fin.stretches.iter().flatten().copied().collect(),
+            ),
+            FieldData::new(
+                "swelling_ratio",
+                FieldKind::Scalar,
+                fin.swelling_ratio.clone(),
+            ),
+        ]);
+    }
     points.push(FieldData::new("flux", FieldKind::Vector, flux));
     let cells = vec![FieldData::new(
         "material",
@@ -375,6 +402,7 @@ pub fn write_snapshot(
                 // Vectors are written padded to 3 components.
                 FieldKind::Vector => 3,
                 FieldKind::SymTensor => 6,
+                FieldKind::Tensor => 9,
             };
             let stored = f.values.len() / mesh.n_points();
             (f.name.clone(), nc, middle * nc, f.values[middle * stored])

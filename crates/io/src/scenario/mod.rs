@@ -45,6 +45,6 @@ pub use located::{line_column, Located, ScenarioError};
 pub use types::{
     Amount, Body, BoundarySpec, Element, FreeEnergy, Geometry, Initial, LinearSolverName, Material,
     MobilityKind, Noise, NumberOrFormula, Orders, OutputSpec, PlaneStrainSwelling, RigidModes,
-    ScalarOrTensor, Scenario, SchemeName, Shape, SolverSpec, Stage, StopRule, TimeSpec, TimeTable,
-    ZoneBox, DEFAULT_CHECKPOINT_WALL,
+    ScalarOrTensor, Scenario, SchemeName, Shape, SolverSpec, Stage, StopRule, Strain, TimeSpec,
+    TimeTable, ZoneBox, DEFAULT_CHECKPOINT_WALL,
 };

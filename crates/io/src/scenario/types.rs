@@ -20,8 +20,9 @@ pub struct Scenario {
     pub orders: Orders,
     /// Materials, each on some zones (or on the whole body).
     pub material: Vec<Located<Material>>,
-    /// Initial concentration.
-    pub initial: Initial,
+    /// Initial concentration (may be left out only when every material is a gel, whose initial
+    /// solvent content follows from its reference stretch).
+    pub initial: Option<Located<Initial>>,
     /// Boundary conditions that hold in every stage (supports, symmetry planes).
     #[serde(default)]
     pub boundary: Vec<Located<BoundarySpec>>,
@@ -94,10 +95,24 @@ pub struct Body {
     /// materials then give no elastic constants and no swelling.
     #[serde(default = "yes")]
     pub mechanics: bool,
+    /// Kinematics: small strain (default) or finite strain (total Lagrangian).
+    #[serde(default)]
+    pub strain: Strain,
     /// Periodic directions of a generated rectangle or box ("x", "y", "z").
     pub periodic: Option<Located<Vec<Located<String>>>>,
     /// Periodic boundary pairs `[first, second]` of any mesh (second = first shifted).
     pub periodic_pairs: Option<Located<Vec<Located<[String; 2]>>>>,
+}
+
+/// Kinematics of the body.
+#[derive(Clone, Copy, Debug, Default, Deserialize, PartialEq, Eq)]
+#[serde(rename_all = "snake_case")]
+pub enum Strain {
+    /// Small strain: linear kinematics, stresses on the undeformed body.
+    #[default]
+    Small,
+    /// Finite strain, total Lagrangian (docs/theory.md, "Finite strain").
+    Finite,
 }
 
 /// Handling of rigid-body modes that no displacement condition removes.
@@ -247,6 +262,9 @@ pub enum FreeEnergy {
     Lattice,
     /// Double well `W (c − c_a)² (c_b − c)²` (phase separation).
     DoubleWell,
+    /// Polymer gel: neo-Hookean network plus Flory–Huggins mixing, molecular incompressibility
+    /// (finite strain only).
+    Gel,
 }
 
 /// The two plane-strain conventions for the swelling strain (docs/theory.md §11).
@@ -322,6 +340,12 @@ pub struct Material {
     pub well_height: Option<f64>,
     /// `[c_a, c_b]` of the double well.
     pub well_concentrations: Option<[f64; 2]>,
+    /// Molar volume of the solvent of a gel in m³/mol.
+    pub solvent_molar_volume: Option<f64>,
+    /// Flory–Huggins interaction parameter of a gel (dimensionless).
+    pub chi: Option<f64>,
+    /// Isotropic stretch of a gel's reference state from its dry state (> 1).
+    pub reference_stretch: Option<f64>,
     /// Gradient-energy coefficient `κ` (scalar or tensor), none by default.
     pub gradient_energy: Option<ScalarOrTensor>,
     // Transport.
