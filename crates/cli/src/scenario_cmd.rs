@@ -54,6 +54,21 @@ fn describe(model: &Model) {
     for (name, cells) in material_table(model) {
         println!("  material   {name}: {cells} cells");
     }
+    if s.body.strain == dilata_io::scenario::Strain::Finite {
+        println!("  strain     finite (total Lagrangian)");
+    }
+    // A gel starts from its reference state; a bath ramp starts from its potential.
+    for (name, law) in model.material_names.iter().zip(model.laws.finite_laws()) {
+        if let dilata_material::finite::FiniteLaw::Gel(g) = law {
+            println!(
+                "  gel        {name}: reference stretch {}, solvent {:.6e} mol/m^3, \
+                 chemical potential {:.10e} J/mol",
+                g.params().reference_stretch,
+                g.reference_concentration(),
+                g.free_swelling_potential(g.params().reference_stretch)
+            );
+        }
+    }
     for stage in &model.stages {
         let stop = match &stage.stop {
             Some(rule) => format!(

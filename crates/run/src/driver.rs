@@ -573,6 +573,22 @@ pub fn run_with(
                 d.row.inflow = new_inflow;
                 d.row.balance_error = d.row.amount - st.amount0 - new_inflow;
                 files.history.append(&d.row)?;
+                if model.scenario.output.newton_log {
+                    let norms: Vec<String> = report
+                        .newton
+                        .residual_norms
+                        .iter()
+                        .map(|r| format!("{r:.3e}"))
+                        .collect();
+                    files.log.note(&format!(
+                        "step {steps} (stage '{}', t = {:e} s, dt = {:e} s): Newton residual \
+                         max-norms {}",
+                        plan.name,
+                        report.t,
+                        report.dt,
+                        norms.join(" ")
+                    ))?;
+                }
                 files
                     .timing
                     .append(steps, report.t, wall_now(), st.session)?;

@@ -541,6 +541,10 @@ pub struct OutputSpec {
     /// Write a checkpoint when this many wall-clock seconds have passed since the last one
     /// (default [`DEFAULT_CHECKPOINT_WALL`]).
     pub checkpoint_wall: Option<f64>,
+    /// Write the Newton residual norms of every accepted step to `run.log` (to see the
+    /// convergence rate).
+    #[serde(default)]
+    pub newton_log: bool,
 }
 
 /// Default wall-clock interval between checkpoints in seconds: a crash costs at most ten
@@ -559,6 +563,7 @@ impl Default for OutputSpec {
             fields: true,
             checkpoint_every: None,
             checkpoint_wall: None,
+            newton_log: false,
         }
     }
 }
