@@ -34,6 +34,15 @@ const T: f64 = 298.15;
 const C0: f64 = 1000.0;
 const C_MAX: f64 = 2.37e4;
 
+/// Magnitudes of the tangent checks' states: 1 µm cells, displacements of 1 nm, c around C0,
+/// μ of 1e3 J/mol.
+const SCALES: common::StateScales = common::StateScales {
+    length: 1e-6,
+    u: 1e-9,
+    c: C0,
+    mu: 1e3,
+};
+
 fn host() -> common::DiluteHost {
     common::DiluteHost {
         young: E,
@@ -228,7 +237,7 @@ fn coupled_tangent_matches_finite_differences() {
     for (mesh, mode, law) in &cases {
         let (dofs, fields) = common::coupled_dofs(mesh, 2);
         let n = dofs.n_dofs();
-        let x = smooth_state(mesh, &dofs, fields);
+        let x = common::smooth_state(mesh, &dofs, fields, &SCALES);
         let history: Vec<f64> = (0..n).map(|i| -((i % 7) as f64) * 1e2).collect();
         let laws = LawMap::uniform(*law, mesh.n_cells());
         let run = |xs: &[f64], input: &CellInput<'_>, out: LocalOutput<'_>| {
@@ -248,112 +257,13 @@ fn coupled_tangent_matches_finite_differences() {
             };
             k.cell_into(input, &mut k.build_scratch(), out).unwrap();
         };
-        let (worst, at) = tangent_error(mesh, &dofs, fields, &x, run);
+        let (worst, at) = common::tangent_error(mesh, &dofs, fields, &x, &SCALES, run);
         let kind = mesh.cell(0).0;
         assert!(
             worst < 1e-6,
             "{kind} {mode:?}: tangent differs from finite differences by {worst:e} at (row, column, tangent, difference) {at:?}"
         );
     }
-}
-
-/// A smooth non-trivial state: displacements ~1e-9 m, c around C0 (varying ±20 %), μ ~ 1e3
-/// J/mol with gradients.
-fn smooth_state(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields) -> Vec<f64> {
-    let mut x = vec![0.0; dofs.n_dofs()];
-    for node in 0..mesh.n_points() {
-        let p = mesh.points[node];
-        let (sx, sy, sz) = (p[0] / 1e-6, p[1] / 1e-6, p[2] / 1e-6);
-        for comp in 0..mesh.dim {
-            x[dofs.node_dof(fields.u, node, comp).unwrap()] =
-                1e-9 * ((comp as f64 + 1.0) * sx - 0.7 * sy + 0.3 * sz * sx);
-        }
-        if let Ok(d) = dofs.node_dof(fields.c, node, 0) {
-            x[d] = C0 * (1.0 + 0.2 * (sx - 0.5 * sy + 0.3 * sz));
-        }
-        if let Ok(d) = dofs.node_dof(fields.mu, node, 0) {
-            x[d] = 1e3 * (0.3 + sx * sy - sz);
-        }
-    }
-    x
-}
-
-/// Worst difference between the local tangent written by `run(x, ..)` on cell 0 and central
-/// differences of its local residual, with the location (row, column, tangent, difference).
-fn tangent_error(
-    mesh: &Mesh,
-    dofs: &DofMap,
-    fields: CoupledFields,
-    x: &[f64],
-    run: impl Fn(&[f64], &CellInput<'_>, LocalOutput<'_>),
-) -> (f64, (usize, usize, f64, f64)) {
-    let (kind, nodes) = mesh.cell(0);
-    let coords: Vec<[f64; 3]> = nodes.iter().map(|&i| mesh.points[i]).collect();
-    let cd = dofs.cell_dofs(0).to_vec();
-    let m = cd.len();
-    let mut ke = vec![0.0; m * m];
-    let mut fe = vec![0.0; m];
-    let input = CellInput {
-        id: 0,
-        kind,
-        nodes,
-        coords: &coords,
-        dofs: &cd,
-    };
-    run(
-        x,
-        &input,
-        LocalOutput {
-            matrix: Some(&mut ke),
-            vector: Some(&mut fe),
-        },
-    );
-    // Central differences column by column; step relative to the unknown's scale.
-    let scale = |d: usize| {
-        if dofs.field_range(fields.u).contains(&d) {
-            1e-9
-        } else if dofs.field_range(fields.c).contains(&d) {
-            C0
-        } else {
-            1e3
-        }
-    };
-    let mut worst: f64 = 0.0;
-    let mut at = (0, 0, 0.0, 0.0);
-    for b in 0..m {
-        let h = 1e-6 * scale(cd[b]);
-        let eval = |delta: f64| {
-            let mut xp = x.to_vec();
-            xp[cd[b]] += delta;
-            let mut f = vec![0.0; m];
-            run(
-                &xp,
-                &input,
-                LocalOutput {
-                    matrix: None,
-                    vector: Some(&mut f),
-                },
-            );
-            f
-        };
-        let (fp, fm) = (eval(h), eval(-h));
-        for a in 0..m {
-            let fd = (fp[a] - fm[a]) / (2.0 * h);
-            // Compare sensitivities to a relative change of each unknown: entries scaled by
-            // their column's unknown scale, relative to the largest scaled entry of the row
-            // (fields carry different units, so raw entries are not comparable).
-            let row_scale = (0..m)
-                .map(|bb| (ke[a * m + bb] * scale(cd[bb])).abs())
-                .fold(0.0, f64::max)
-                .max(1e-300);
-            let e = (ke[a * m + b] - fd).abs() * scale(cd[b]) / row_scale;
-            if e > worst {
-                worst = e;
-                at = (a, b, ke[a * m + b], fd);
-            }
-        }
-    }
-    (worst, at)
 }
 
 /// The same check on the row-swapped system of a prescribed potential: μ constrained on the
@@ -370,7 +280,7 @@ fn swapped_tangent_matches_finite_differences() {
     .unwrap();
     let (dofs, fields) = common::coupled_dofs(&mesh, 2);
     let n = dofs.n_dofs();
-    let x = smooth_state(&mesh, &dofs, fields);
+    let x = common::smooth_state(&mesh, &dofs, fields, &SCALES);
     let history: Vec<f64> = (0..n).map(|i| -((i % 7) as f64) * 1e2).collect();
     let laws = LawMap::uniform(lattice_law(), mesh.n_cells());
     let mut swapped = vec![false; mesh.n_points()];
@@ -401,7 +311,7 @@ fn swapped_tangent_matches_finite_differences() {
         };
         k.cell_into(input, &mut k.build_scratch(), out).unwrap();
     };
-    let (worst, at) = tangent_error(&mesh, &dofs, fields, &x, run);
+    let (worst, at) = common::tangent_error(&mesh, &dofs, fields, &x, &SCALES, run);
     assert!(
         worst < 1e-6,
         "swapped rows: tangent differs from finite differences by {worst:e} at {at:?}"

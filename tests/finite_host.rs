@@ -15,8 +15,27 @@ const T: f64 = 298.15;
 /// A plane-strain layer of thickness `l` (one column of quad8 cells, sides sliding, bottom
 /// fixed and closed) whose top is held at `c1` from `c0` (dilute host: Fick's law with the
 /// diffusivity `d`). `strain` is "small" or "finite".
-fn layer(strain: &str, omega: f64, l: f64, cells: usize, d: f64, c0: f64, c1: f64, times: &[f64]) -> String {
+/// A thin layer's material and geometry.
+#[derive(Clone, Copy)]
+struct Layer {
+    omega: f64,
+    l: f64,
+    cells: usize,
+    d: f64,
+    c0: f64,
+    c1: f64,
+}
+
+fn layer(strain: &str, p: Layer, times: &[f64]) -> String {
     let times: Vec<String> = times.iter().map(|t| format!("{t:e}")).collect();
+    let Layer {
+        omega,
+        l,
+        cells,
+        d,
+        c0,
+        c1,
+    } = p;
     format!(
         r#"
 title = "thin layer taking up a species through its top"
@@ -104,7 +123,15 @@ fn thin_layer_uptake_follows_linear_diffusion() {
         .iter()
         .map(|f| f * tau)
         .collect();
-    let text = layer("finite", 1e-7, l, cells, d, c0, c1, &times);
+    let p = Layer {
+        omega: 1e-7,
+        l,
+        cells,
+        d,
+        c0,
+        c1,
+    };
+    let text = layer("finite", p, &times);
     let (_model, _summary, dir) = run_text(&text);
     let (t, m) = uptake(dir.path(), l / cells as f64);
     let m_inf = (c1 - c0) * l;
@@ -116,12 +143,18 @@ fn thin_layer_uptake_follows_linear_diffusion() {
         let series = crank_fraction(d, l, tk);
         let fraction = m[i] / m_inf;
         let rel = (fraction - series) / series;
-        println!("t/τ {:.3}: uptake fraction {fraction:.6}, Crank {series:.6} (rel {rel:.2e})", tk / tau);
+        println!(
+            "t/τ {:.3}: uptake fraction {fraction:.6}, Crank {series:.6} (rel {rel:.2e})",
+            tk / tau
+        );
         assert!(rel.abs() < 0.01, "uptake {fraction} vs {series}");
         if tk < 0.05 * tau {
             let early = 2.0 * (c1 - c0) * (d * tk / std::f64::consts::PI).sqrt() / m_inf;
             let rel = (fraction - early) / early;
-            assert!(rel.abs() < 0.01, "early uptake {fraction} vs sqrt law {early}");
+            assert!(
+                rel.abs() < 0.01,
+                "early uptake {fraction} vs sqrt law {early}"
+            );
         }
     }
     // The square-root law itself: the slope of M against sqrt(t) over the early outputs.
@@ -134,7 +167,9 @@ fn thin_layer_uptake_follows_linear_diffusion() {
         })
         .collect();
     let n = early.len() as f64;
-    let (sx, sy) = early.iter().fold((0.0, 0.0), |(a, b), (x, y)| (a + x, b + y));
+    let (sx, sy) = early
+        .iter()
+        .fold((0.0, 0.0), |(a, b), (x, y)| (a + x, b + y));
     let (sxx, sxy) = early
         .iter()
         .fold((0.0, 0.0), |(a, b), (x, y)| (a + x * x, b + x * y));
@@ -157,7 +192,18 @@ fn small_strain_model_is_the_limit_of_the_host_model() {
     for omega in [3e-6, 3e-7, 3e-8] {
         let strain = omega * (c1 - c0) / 3.0;
         let run = |kind: &str| {
-            let (model, summary, dir) = run_text(&layer(kind, omega, l, cells, d, c0, c1, &times));
+            let (model, summary, dir) = run_text(&layer(
+                kind,
+                Layer {
+                    omega,
+                    l,
+                    cells,
+                    d,
+                    c0,
+                    c1,
+                },
+                &times,
+            ));
             // The uptake at the output times (both runs land on them; their other steps
             // differ).
             let (t, m) = uptake(dir.path(), l / cells as f64);
@@ -188,7 +234,10 @@ fn small_strain_model_is_the_limit_of_the_host_model() {
         // The stress differs at first order in the strain, the uptake (driven by a weak
         // coupling) less.
         assert!(ds < 3.0 * strain && dm < 3.0 * strain && dc < 3.0 * strain);
-        assert!(ds < last / 5.0, "the difference does not fall with the strain");
+        assert!(
+            ds < last / 5.0,
+            "the difference does not fall with the strain"
+        );
         last = ds;
     }
 }
@@ -255,7 +304,10 @@ fields = false
         - mu.iter().fold(f64::INFINITY, |m, v| m.min(*v));
     let c_spread = c.iter().fold(f64::NEG_INFINITY, |m, v| m.max(*v))
         - c.iter().fold(f64::INFINITY, |m, v| m.min(*v));
-    println!("μ spread {:.2e} RT, c spread {c_spread:.3e} mol/m³, amount drift {drift:.2e}", spread / rt);
+    println!(
+        "μ spread {:.2e} RT, c spread {c_spread:.3e} mol/m³, amount drift {drift:.2e}",
+        spread / rt
+    );
     assert!(spread < 1e-8 * rt, "μ spread {spread:e} J/mol");
     // The load is strong enough to make the concentration clearly non-uniform.
     assert!(c_spread > 100.0, "c spread {c_spread}");

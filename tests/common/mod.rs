@@ -224,3 +224,124 @@ pub fn history(dir: &std::path::Path) -> Vec<std::collections::BTreeMap<String, 
 pub fn column(rows: &[std::collections::BTreeMap<String, String>], name: &str) -> Vec<f64> {
     rows.iter().map(|r| r[name].parse().unwrap()).collect()
 }
+
+/// Magnitudes of a coupled state: the body size (m), and the scale of the displacement (m), the
+/// concentration (mol/m³) and the potential (J/mol) unknowns. [`smooth_state`] builds a state
+/// of these magnitudes, and [`tangent_error`] sizes its difference steps and compares columns by
+/// them (small strain: displacements of a thousandth of the body size or less; finite strain:
+/// a tenth of it or more).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct StateScales {
+    pub length: f64,
+    pub u: f64,
+    pub c: f64,
+    pub mu: f64,
+}
+
+/// A smooth non-trivial state: displacements of magnitude `s.u` with gradients in every
+/// direction that vary in space (bilinear terms), `c` around `s.c` (varying by about ±20 %),
+/// `μ` of magnitude `s.mu` with gradients.
+pub fn smooth_state(
+    mesh: &Mesh,
+    dofs: &dilata_fem::dofs::DofMap,
+    fields: dilata_physics::coupled::CoupledFields,
+    s: &StateScales,
+) -> Vec<f64> {
+    let mut x = vec![0.0; dofs.n_dofs()];
+    for node in 0..mesh.n_points() {
+        let p = mesh.points[node];
+        let (sx, sy, sz) = (p[0] / s.length, p[1] / s.length, p[2] / s.length);
+        for comp in 0..mesh.dim {
+            x[dofs.node_dof(fields.u, node, comp).unwrap()] =
+                s.u * ((comp as f64 + 1.0) * sx - 0.7 * sy + 0.3 * (sy + sz) * sx);
+        }
+        if let Ok(d) = dofs.node_dof(fields.c, node, 0) {
+            x[d] = s.c * (1.0 + 0.2 * (sx - 0.5 * sy + 0.3 * sz));
+        }
+        if let Ok(d) = dofs.node_dof(fields.mu, node, 0) {
+            x[d] = s.mu * (0.3 + sx * sy - sz);
+        }
+    }
+    x
+}
+
+/// Worst difference between the local tangent written by `run(x, ..)` on cell 0 and central
+/// differences of its local residual, with the location (row, column, tangent, difference).
+///
+/// The step of a column is `1e-6` times the scale of its unknown (`s.u`, `s.c` or `s.mu`).
+/// Entries are compared as sensitivities to a relative change of each unknown (scaled by their
+/// column's unknown scale), relative to the largest scaled entry of their row, since the
+/// fields carry different units.
+pub fn tangent_error(
+    mesh: &Mesh,
+    dofs: &dilata_fem::dofs::DofMap,
+    fields: dilata_physics::coupled::CoupledFields,
+    x: &[f64],
+    s: &StateScales,
+    run: impl Fn(&[f64], &dilata_fem::CellInput<'_>, dilata_fem::LocalOutput<'_>),
+) -> (f64, (usize, usize, f64, f64)) {
+    use dilata_fem::{CellInput, LocalOutput};
+    let (kind, nodes) = mesh.cell(0);
+    let coords: Vec<[f64; 3]> = nodes.iter().map(|&i| mesh.points[i]).collect();
+    let cd = dofs.cell_dofs(0).to_vec();
+    let m = cd.len();
+    let mut ke = vec![0.0; m * m];
+    let mut fe = vec![0.0; m];
+    let input = CellInput {
+        id: 0,
+        kind,
+        nodes,
+        coords: &coords,
+        dofs: &cd,
+    };
+    run(
+        x,
+        &input,
+        LocalOutput {
+            matrix: Some(&mut ke),
+            vector: Some(&mut fe),
+        },
+    );
+    let scale = |d: usize| {
+        if dofs.field_range(fields.u).contains(&d) {
+            s.u
+        } else if dofs.field_range(fields.c).contains(&d) {
+            s.c
+        } else {
+            s.mu
+        }
+    };
+    let mut worst: f64 = 0.0;
+    let mut at = (0, 0, 0.0, 0.0);
+    for b in 0..m {
+        let h = 1e-6 * scale(cd[b]);
+        let eval = |delta: f64| {
+            let mut xp = x.to_vec();
+            xp[cd[b]] += delta;
+            let mut f = vec![0.0; m];
+            run(
+                &xp,
+                &input,
+                LocalOutput {
+                    matrix: None,
+                    vector: Some(&mut f),
+                },
+            );
+            f
+        };
+        let (fp, fm) = (eval(h), eval(-h));
+        for a in 0..m {
+            let fd = (fp[a] - fm[a]) / (2.0 * h);
+            let row_scale = (0..m)
+                .map(|bb| (ke[a * m + bb] * scale(cd[bb])).abs())
+                .fold(0.0, f64::max)
+                .max(1e-300);
+            let e = (ke[a * m + b] - fd).abs() * scale(cd[b]) / row_scale;
+            if e > worst {
+                worst = e;
+                at = (a, b, ke[a * m + b], fd);
+            }
+        }
+    }
+    (worst, at)
+}
