@@ -838,3 +838,80 @@ fn rotated_gel_stays_stress_free() {
         worst[0], worst[1], worst[2], worst[3], worst[4]
     );
 }
+
+/// The Jacobian of a whole finite-strain problem with pressures on two sides (a load that
+/// follows the deformed surface, `FollowerPressureKernel`) equals central differences of its
+/// residual, column by column (consistent tangent, common practice, no source), in plane strain,
+/// axisymmetry and 3D at a finite deformation.
+#[test]
+fn follower_pressure_tangent_matches_finite_differences() {
+    let cases: Vec<(Mesh, GeometryMode, Vec<&str>)> = vec![
+        (
+            square(CellKind::Quad8, [0.0, 0.0], 2),
+            GeometryMode::PlaneStrain,
+            vec!["right", "top"],
+        ),
+        (
+            square(CellKind::Quad8, [0.5 * L, 0.0], 2),
+            GeometryMode::Axisymmetric,
+            vec!["right", "top", "left"],
+        ),
+        (
+            cube(CellKind::Hex8, 1),
+            GeometryMode::ThreeD,
+            vec!["right", "top", "front"],
+        ),
+    ];
+    for (mesh, mode, sides) in cases {
+        let law = dilute_host();
+        let (dofs, fields) = common::coupled_dofs(&mesh, mesh.blocks[0].kind.order());
+        let scales = finite_scales(&law);
+        let x = common::smooth_state(&mesh, &dofs, fields, &scales);
+        let mut problem = CoupledProblem::new(
+            &mesh,
+            dofs,
+            fields,
+            mode,
+            LawMap::finite(vec![law], vec![0; mesh.n_cells()]),
+            Parallelism::Sequential,
+        );
+        for side in &sides {
+            let facets = mesh.boundary(side).unwrap().to_vec();
+            problem
+                .loads
+                .push((facets, dilata_solve::BoundaryLoad::Pressure(3e9)));
+        }
+        let n = problem.dofs.n_dofs();
+        let zeros = vec![0.0; n];
+        dilata_solve::time::TransientSystem::begin_step(&mut problem, 0.0, 1e2, &zeros);
+        let pattern = dilata_solve::newton::DiscreteSystem::pattern(&problem);
+        let mut jac = dilata_linalg::CsrMatrix::zeros(pattern);
+        let mut r = vec![0.0; n];
+        dilata_solve::newton::DiscreteSystem::assemble_into(&mut problem, &x, &mut jac, &mut r)
+            .unwrap();
+        let u_range = problem.dofs.field_range(fields.u);
+        let mut worst: f64 = 0.0;
+        for col in u_range.clone() {
+            let h = 1e-7 * scales.u;
+            let mut eval = |d: f64| {
+                let mut xp = x.clone();
+                xp[col] += d;
+                let mut rp = vec![0.0; n];
+                dilata_solve::newton::DiscreteSystem::residual_into(&mut problem, &xp, &mut rp)
+                    .unwrap();
+                rp
+            };
+            let (rp, rm) = (eval(h), eval(-h));
+            for row in u_range.clone() {
+                let fd = (rp[row] - rm[row]) / (2.0 * h);
+                let row_scale = u_range
+                    .clone()
+                    .map(|c| jac.get(row, c).abs())
+                    .fold(1e-300, f64::max);
+                worst = worst.max((jac.get(row, col) - fd).abs() / row_scale);
+            }
+        }
+        println!("{mode:?}: follower pressure tangent error {worst:.2e}");
+        assert!(worst < 1e-6, "{mode:?}: {worst:e}");
+    }
+}

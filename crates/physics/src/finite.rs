@@ -12,12 +12,18 @@
 //! `F_θθ = 1 + u_r/R`, which the variation carries as `δF_θθ = N_a/R` for the radial direction.
 //! Plane stress is not offered in finite strain. A quadrature point with `det F ≤ 0` (or outside
 //! a law's range) is a recoverable error naming the cell and point: the step is cut.
+//!
+//! Boundary loads: a traction is a nominal (dead) load per reference area, as in small strain;
+//! a pressure follows the deformed surface ([`FollowerPressureKernel`]).
 
-use dilata_fem::{CellInput, GeometryMode, LocalOutput};
+use dilata_fem::dofs::DofMap;
+use dilata_fem::values::{space_kind, FacetValues};
+use dilata_fem::{CellInput, FacetInput, FacetKernel, FieldHandle, GeometryMode, LocalOutput};
 use dilata_material::finite::{flat, FiniteInput};
 use nalgebra::{Matrix3, SVector, Vector3};
 
 use crate::coupled::{CoupledError, CoupledKernel, CoupledScratch};
+use crate::poisson::facet_values;
 
 /// `δF` of a unit displacement of one node in each direction (flattened by `flat`).
 pub fn node_df(
@@ -243,4 +249,175 @@ pub(crate) fn finite_cell_into(
         }
     }
     Ok(())
+}
+
+/// Boundary kernel of a pressure `p` (positive into the body) that follows the deformed surface:
+/// the residual of the displacement rows gains `∫ p N_a n da` over the current facet, with the
+/// current area vector `n da` from the displaced facet nodes (2D: the rotated tangent
+/// `(t_y, −t_x) dξ`, times `2π r` of the current radius in axisymmetry; 3D: `t₁ × t₂ dξ₁ dξ₂`),
+/// and its tangent by the facet displacements (a non-symmetric load stiffness).
+pub struct FollowerPressureKernel<'a> {
+    pub dofs: &'a DofMap,
+    pub field: FieldHandle,
+    pub mode: GeometryMode,
+    pub pressure: f64,
+    pub solution: &'a [f64],
+}
+
+impl FacetKernel for FollowerPressureKernel<'_> {
+    type Scratch = Vec<FacetValues>;
+    type Error = std::convert::Infallible;
+
+    fn build_scratch(&self) -> Vec<FacetValues> {
+        Vec::new()
+    }
+
+    fn facet_into(
+        &self,
+        input: &FacetInput<'_>,
+        cache: &mut Vec<FacetValues>,
+        out: LocalOutput<'_>,
+    ) -> Result<(), Self::Error> {
+        let nc = self.dofs.spec(self.field).n_components;
+        let order = self.dofs.spec(self.field).order;
+        let fk = input.facet_kind;
+        let fsk = space_kind(fk, order).unwrap_or(fk.linear());
+        let fv = facet_values(cache, fk, self.mode, fsk);
+        let range = self.dofs.local_range(self.field, input.cell.kind);
+        let n_loc = input.cell.dofs.len();
+        let table = &fv.spaces[0];
+        let nf = table.n_nodes;
+        // Current positions of the facet's space nodes (vertex-first: a linear space on a
+        // quadratic facet uses its first nodes).
+        let x: Vec<[f64; 3]> = (0..nf)
+            .map(|b| {
+                let mut p = input.facet_coords[b];
+                let local = input.local_nodes[b];
+                for (j, pj) in p.iter_mut().enumerate().take(nc) {
+                    *pj += self.solution[input.cell.dofs[range.start + local * nc + j]];
+                }
+                p
+            })
+            .collect();
+        let fdim = fk.dim();
+        let LocalOutput {
+            mut matrix,
+            mut vector,
+        } = out;
+        let p = self.pressure;
+        let axi = self.mode == GeometryMode::Axisymmetric;
+        for q in 0..fv.n_points() {
+            let w = fv.rule.weights[q];
+            let nv = table.values_at(q);
+            let dn = table.grads_at(q);
+            let mut t = [[0.0; 3]; 2];
+            let mut pos = [0.0; 3];
+            for b in 0..nf {
+                for i in 0..3 {
+                    pos[i] += nv[b] * x[b][i];
+                    for (j, tj) in t.iter_mut().enumerate().take(fdim) {
+                        tj[i] += x[b][i] * dn[b][j];
+                    }
+                }
+            }
+            let geo = FacetPoint {
+                axi,
+                fdim,
+                t,
+                radius: pos[0],
+                values: nv,
+                grads: dn,
+            };
+            let area = geo.area();
+            for a in 0..nf {
+                let row0 = range.start + input.local_nodes[a] * nc;
+                if let Some(fe) = vector.as_deref_mut() {
+                    for i in 0..nc {
+                        fe[row0 + i] += p * nv[a] * area[i] * w;
+                    }
+                }
+                if let Some(ke) = matrix.as_deref_mut() {
+                    for b in 0..nf {
+                        let col0 = range.start + input.local_nodes[b] * nc;
+                        for j in 0..nc {
+                            let d = geo.d_area(b, j);
+                            for i in 0..nc {
+                                ke[(row0 + i) * n_loc + col0 + j] += p * nv[a] * d[i] * w;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+}
+
+/// The current geometry of a facet at one quadrature point.
+struct FacetPoint<'a> {
+    axi: bool,
+    fdim: usize,
+    /// Current tangents `∂x/∂ξ`.
+    t: [[f64; 3]; 2],
+    /// Current radius (axisymmetry).
+    radius: f64,
+    values: &'a [f64],
+    grads: &'a [[f64; 3]],
+}
+
+impl FacetPoint<'_> {
+    /// `2π r` in axisymmetry, else 1.
+    fn ring(&self) -> f64 {
+        if self.axi {
+            2.0 * std::f64::consts::PI * self.radius
+        } else {
+            1.0
+        }
+    }
+
+    /// Current area vector per unit reference parameter area.
+    fn area(&self) -> [f64; 3] {
+        let t = &self.t;
+        if self.fdim == 1 {
+            let s = self.ring();
+            [t[0][1] * s, -t[0][0] * s, 0.0]
+        } else {
+            cross(t[0], t[1])
+        }
+    }
+
+    /// Derivative of [`Self::area`] by the displacement of facet node `b` in direction `j`.
+    fn d_area(&self, b: usize, j: usize) -> [f64; 3] {
+        let t = &self.t;
+        if self.fdim == 1 {
+            let g = self.grads[b][0] * self.ring();
+            let mut d = if j == 0 {
+                [0.0, -g, 0.0]
+            } else {
+                [g, 0.0, 0.0]
+            };
+            // The current radius moves with the radial displacement.
+            if self.axi && j == 0 {
+                let dr = 2.0 * std::f64::consts::PI * self.values[b];
+                d[0] += t[0][1] * dr;
+                d[1] -= t[0][0] * dr;
+            }
+            d
+        } else {
+            let mut e1 = [0.0; 3];
+            let mut e2 = [0.0; 3];
+            e1[j] = self.grads[b][0];
+            e2[j] = self.grads[b][1];
+            let (u, v) = (cross(e1, t[1]), cross(t[0], e2));
+            [u[0] + v[0], u[1] + v[1], u[2] + v[2]]
+        }
+    }
+}
+
+fn cross(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
+    [
+        a[1] * b[2] - a[2] * b[1],
+        a[2] * b[0] - a[0] * b[2],
+        a[0] * b[1] - a[1] * b[0],
+    ]
 }

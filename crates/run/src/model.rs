@@ -191,25 +191,6 @@ fn check_finite_body(scenario: &Scenario, src: Source<'_>) -> Result<(), RunErro
             "periodic bodies are small-strain only in this version (body.strain = \"finite\")",
         )));
     }
-    let all = scenario.boundary.iter().chain(
-        scenario
-            .stage
-            .iter()
-            .flat_map(|s| s.get_ref().boundary.iter()),
-    );
-    for b in all {
-        if b.get_ref().pressure.is_some() {
-            return Err(RunError::Scenario(src.error(
-                b.span(),
-                format!(
-                    "boundary '{}': pressure is not available in finite strain in this version \
-                     (it would follow the deformed surface); give a traction, which acts as a \
-                     nominal load per reference area",
-                    b.get_ref().on.get_ref()
-                ),
-            )));
-        }
-    }
     Ok(())
 }
 

@@ -15,6 +15,7 @@ use dilata_material::elastic::Stiffness;
 use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{RowSwap, SwappedRows};
 use dilata_physics::elasticity::{ElasticityKernel, SurfaceLoad, SurfaceLoadKernel};
+use dilata_physics::finite::FollowerPressureKernel;
 use dilata_physics::poisson::{ExchangeKernel, FluxKernel, PoissonKernel};
 
 use crate::newton::DiscreteSystem;
@@ -151,6 +152,7 @@ impl<'m> FieldProblem<'m> {
                 displacement_field: self.field,
                 solution: x,
                 swap: None,
+                finite: false,
             },
             &self.loads,
             &mut target,
@@ -201,6 +203,8 @@ pub(crate) struct LoadContext<'a> {
     pub displacement_field: FieldHandle,
     pub solution: &'a [f64],
     pub swap: Option<RowSwap<'a>>,
+    /// Finite strain: pressures follow the deformed surface.
+    pub finite: bool,
 }
 
 /// Add one facet kernel's contributions, through the row swap when there is one.
@@ -271,6 +275,18 @@ pub(crate) fn add_loads(
                     field: ctx.displacement_field,
                     mode: ctx.mode,
                     load: SurfaceLoad::Traction(f.as_ref()),
+                },
+                target,
+            ),
+            BoundaryLoad::Pressure(p) if ctx.finite => add_facet_kernel(
+                ctx,
+                facets,
+                FollowerPressureKernel {
+                    dofs: ctx.dofs,
+                    field: ctx.displacement_field,
+                    mode: ctx.mode,
+                    pressure: *p,
+                    solution: ctx.solution,
                 },
                 target,
             ),
