@@ -2,7 +2,8 @@
 //! `cargo test --release --test gel_swelling`): free swelling in a solvent and a layer bonded to
 //! a rigid substrate, both run from a swollen reference state to equilibrium with the bath, and
 //! compared with the closed-form equilibria of Hong, Zhao, Zhou & Suo (J. Mech. Phys. Solids 56
-//! (2008) 1779, §3) and Hong, Liu & Suo (Int. J. Solids Struct. 46 (2009) 3282, §4).
+//! (2008) 1779, §3) and Hong, Liu & Suo (Int. J. Solids Struct. 46 (2009) 3282, §4); section,
+//! equation and page numbers from memory, the formulas derived again in docs/theory.md §14.
 //!
 //! Free energy per dry volume (Hong et al. 2008, eq. 2.6 with molecular incompressibility):
 //! `W = ½ G (F:F − 3 − 2 ln J) + (RT/Ω)[(J − 1) ln(1 − 1/J) + χ (1 − 1/J)]`, `G = N k T`,

@@ -404,3 +404,108 @@ fn phase_separation_keys_are_checked() {
     let model = build_model(free, "case.toml", Path::new(".")).unwrap();
     check_model(&model).unwrap();
 }
+
+/// Finite-strain keys: a gel needs finite strain, its own keys only, no `[initial]`, quadratic
+/// cells with lower-order c and mu; finite strain refuses plane stress, bodies without
+/// mechanics, periodic bodies, a stiffness tensor, an anisotropic mobility, and a host without
+/// `[initial]`. Each message names the material or key and where it is.
+#[test]
+fn finite_strain_keys_are_checked() {
+    let finite = |text: &str| {
+        text.replacen(
+            "element = \"quad4\" }\n",
+            "element = \"quad8\" }\nstrain = \"finite\"\n",
+            1,
+        )
+    };
+    let gel_material = "[[material]]\nname = \"gel\"\nfree_energy = \"gel\"\nshear_modulus = 1e5\nsolvent_molar_volume = 1.8e-5\nchi = 0.4\ndiffusivity = 1e-9\nreference_stretch = 1.5\n";
+    let host_block = "[[material]]\nname = \"host\"\nyoung_modulus = 10e9\npoisson_ratio = 0.3\npartial_molar_volume = 3e-6\nreference_concentration = 100.0\ndiffusivity = 1e-12\n";
+    let gel = finite(&BASE.replacen(host_block, gel_material, 1))
+        .replacen("[initial]\nconcentration = 100.0\n", "", 1)
+        .replacen("c = 200.0", "mu = 0.0", 1);
+    // The gel scenario itself is valid.
+    build_model(gel.clone(), "case.toml", Path::new(".")).unwrap();
+    // Gel in small strain.
+    let e = error_of(&gel.replacen("strain = \"finite\"\n", "", 1));
+    assert!(
+        e.contains("material 'gel'") && e.contains("needs body.strain = \"finite\""),
+        "{e}"
+    );
+    // Gel with a key of another law.
+    let e = error_of(&gel.replacen("chi = 0.4\n", "chi = 0.4\npartial_molar_volume = 3e-6\n", 1));
+    assert!(
+        e.contains("partial_molar_volume do not apply to free_energy = \"gel\""),
+        "{e}"
+    );
+    // Gel key missing.
+    let e = error_of(&gel.replacen("reference_stretch = 1.5\n", "", 1));
+    assert!(e.contains("needs reference_stretch"), "{e}");
+    // Reference stretch at or below one.
+    let e = error_of(&gel.replacen("reference_stretch = 1.5", "reference_stretch = 0.9", 1));
+    assert!(
+        e.contains("reference stretch minus one must be positive"),
+        "{e}"
+    );
+    // Gel keys on a host.
+    let e = error_of(&finite(BASE).replacen(
+        "diffusivity = 1e-12\n",
+        "diffusivity = 1e-12\nchi = 0.3\n",
+        1,
+    ));
+    assert!(e.contains("chi belong to free_energy = \"gel\""), "{e}");
+    // A gel with [initial].
+    let e = error_of(&gel.replacen(
+        "[[boundary]]",
+        "[initial]\nconcentration = 100.0\n\n[[boundary]]",
+        1,
+    ));
+    assert!(
+        e.contains("remove [initial]") && e.contains("case.toml:"),
+        "{e}"
+    );
+    // A host without [initial].
+    let e = error_of(&finite(BASE).replacen("[initial]\nconcentration = 100.0\n", "", 1));
+    assert!(e.contains("no [initial] table"), "{e}");
+    // A gel on linear cells, or with equal orders.
+    let e = error_of(&gel.replacen("element = \"quad8\"", "element = \"quad4\"", 1));
+    assert!(
+        e.contains("a gel needs u of a higher order than c and mu"),
+        "{e}"
+    );
+    let e = error_of(&gel.replacen("[[boundary]]", "[orders]\nc = 2\nmu = 2\n\n[[boundary]]", 1));
+    assert!(e.contains("got orders u 2, c 2, mu 2"), "{e}");
+    // Plane stress, no mechanics, periodic.
+    let e = error_of(&finite(BASE).replacen("plane_strain", "plane_stress", 1));
+    assert!(e.contains("not plane stress"), "{e}");
+    let e = error_of(&finite(BASE).replacen(
+        "strain = \"finite\"\n",
+        "strain = \"finite\"\nmechanics = false\n",
+        1,
+    ));
+    assert!(e.contains("needs body.mechanics = true"), "{e}");
+    let e = error_of(&finite(BASE).replacen(
+        "strain = \"finite\"\n",
+        "strain = \"finite\"\nperiodic = [\"x\"]\n",
+        1,
+    ));
+    assert!(
+        e.contains("small-strain only") && e.contains("case.toml:"),
+        "{e}"
+    );
+    // A stiffness tensor or an anisotropic diffusivity on a host.
+    let e = error_of(&finite(BASE).replacen(
+        "diffusivity = 1e-12\n",
+        "diffusivity = [[1e-12, 0.0, 0.0], [0.0, 2e-12, 0.0], [0.0, 0.0, 1e-12]]\n",
+        1,
+    ));
+    assert!(e.contains("isotropic mobility"), "{e}");
+    let e = error_of(&finite(BASE).replacen(
+        "young_modulus = 10e9\npoisson_ratio = 0.3\n",
+        "young_modulus = 10e9\npoisson_ratio = 0.3\nyoung_modulus_full = 5e9\nmax_concentration = 1000.0\n",
+        1,
+    ));
+    assert!(
+        e.contains("young_modulus_full are not available in finite strain"),
+        "{e}"
+    );
+}

@@ -4,7 +4,7 @@
 //! Two laws share one output ([`FiniteOutput`]), so that one element kernel serves both:
 //!
 //! * [`GelLaw`]: a polymer network swollen by a solvent (Hong, Zhao, Zhou & Suo, J. Mech. Phys.
-//!   Solids 56 (2008) 1779, eq. 2.6–2.9 and §3). Free energy per dry volume
+//!   Solids 56 (2008) 1779, eq. 2.6–2.9 and §3; equation numbers from memory). Free energy per dry volume
 //!   `W = ½ G (F_d:F_d − 3 − 2 ln J_d) + (RT/Ω)[(J_d − 1) ln(1 − 1/J_d) + χ (1 − 1/J_d)]`
 //!   with `G = N k T` the shear modulus of the network, `Ω` the molar volume of the solvent,
 //!   `χ` the Flory–Huggins parameter and molecular incompressibility `J_d = 1 + Ω C_d` built

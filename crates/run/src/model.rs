@@ -563,6 +563,13 @@ fn build_law(
         RunError::Scenario(src.error(span.clone(), format!("material '{}': {msg}", mat.name)))
     };
     let param = |e: &dyn std::fmt::Display| fail(e.to_string());
+    if mat.free_energy == FreeEnergy::Gel {
+        return Err(fail(
+            "free_energy = \"gel\" needs body.strain = \"finite\" (a gel swells far beyond \
+             small strain)"
+                .into(),
+        ));
+    }
     let (stiffness, swelling) = if mechanics {
         mechanical_laws(mat, mode, &fail)?
     } else {
@@ -613,13 +620,7 @@ fn build_law(
         )));
     }
     let chemical = match mat.free_energy {
-        FreeEnergy::Gel => {
-            return Err(fail(
-                "free_energy = \"gel\" needs body.strain = \"finite\" (a gel swells far beyond \
-                 small strain)"
-                    .into(),
-            ))
-        }
+        FreeEnergy::Gel => unreachable!("refused above"),
         FreeEnergy::Dilute => {
             if mat.interaction != 0.0 {
                 return Err(fail("interaction needs free_energy = \"lattice\"".into()));
