@@ -324,3 +324,77 @@ symmetry = true
         );
     }
 }
+
+// A state the law cannot take is a rejected step, never a crash: a coarse gel dried fast from
+// a corner (bath potential ramped to −3000 J/mol in 100 s) reaches states whose deformation,
+// extrapolated to a corner node, is below the dry volume of the network. Those steps are cut
+// and retried; when the step falls below its minimum the run stops with a message naming the
+// law and the cell, and keeps the history written so far (the behaviour required of every
+// model, docs/theory.md §13; common practice, no source).
+#[test]
+fn steps_leaving_the_gel_range_are_cut_then_the_run_stops_cleanly() {
+    let case = GelCase {
+        nv: 1e5 * OMEGA / rt(),
+        chi: 0.4,
+        l0: 1.5,
+    };
+    let mu0 = free_potential(case.nv, case.chi, case.l0);
+    let text = format!(
+        r#"
+[body]
+geometry = "plane_strain"
+strain = "finite"
+shape = {{ kind = "rectangle", size = [1.0e-3, 1.0e-3], cells = [2, 2], element = "quad8" }}
+{material}
+[[boundary]]
+on = "left"
+symmetry = true
+[[boundary]]
+on = "bottom"
+symmetry = true
+[[stage]]
+name = "dry"
+duration = 1000.0
+[[stage.boundary]]
+on = "top"
+mu = {{ time = [0.0, 100.0], value = [{mu0:.17e}, -3000.0] }}
+[[stage.boundary]]
+on = "right"
+mu = {{ time = [0.0, 100.0], value = [{mu0:.17e}, -3000.0] }}
+[time]
+first_step = 100.0
+[output]
+fields = false
+"#,
+        material = case.material()
+    );
+    let model = dilata_run::build_model(text, "dry.toml", std::path::Path::new(".")).unwrap();
+    let dir = tempfile::tempdir().unwrap();
+    let result = dilata_run::run(
+        &model,
+        &dilata_run::RunOptions {
+            out: dir.path().to_path_buf(),
+            threads: Some(1),
+        },
+        &mut |_| {},
+    );
+    match result {
+        Err(dilata_run::RunError::Stalled { message, time, .. }) => {
+            assert!(
+                message.contains("gel mixing energy") && message.contains("cell "),
+                "{message}"
+            );
+            assert!(time > 0.0);
+        }
+        other => panic!("expected a stalled run, got {other:?}"),
+    }
+    let log = std::fs::read_to_string(dir.path().join("run.log")).unwrap();
+    assert!(
+        log.contains("rejected and retried smaller: cell ")
+            && log.contains("at its local node")
+            && log.contains("below its bound 1"),
+        "{log}"
+    );
+    // Accepted steps before the stop are kept.
+    assert!(history(dir.path()).len() > 2);
+}

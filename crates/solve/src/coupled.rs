@@ -18,7 +18,7 @@ use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{
     CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
 };
-use dilata_physics::coupled_post::{coupled_integrals, CoupledPost};
+use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal, CoupledPost};
 use dilata_physics::norms::field_integral;
 use dilata_physics::poisson::PoissonKernel;
 
@@ -529,8 +529,8 @@ impl TransientSystem for CoupledProblem<'_> {
     /// every cell it belongs to (in finite strain: `FiniteLaw::check_concentration`): the kernel only sees quadrature points, where an oscillating
     /// field can still look admissible while a node has left the range.
     fn check_solution(&self, x: &[f64]) -> Result<(), String> {
-        for (cell, kind, _) in self.mesh.cells() {
-            if self.laws.is_finite() {
+        if self.laws.is_finite() {
+            for (cell, kind, _) in self.mesh.cells() {
                 let law = self.laws.finite_law(cell);
                 let range = self.dofs.local_range(self.fields.c, kind);
                 for &d in &self.dofs.cell_dofs(cell)[range] {
@@ -538,8 +538,28 @@ impl TransientSystem for CoupledProblem<'_> {
                         return Err(format!("cell {cell}, nodal concentration: {e}"));
                     }
                 }
-                continue;
             }
+            // The results are reported at the nodes, where the deformation gradient of each
+            // cell is extrapolated from its quadrature points: a state the law cannot take there
+            // (a node of a drying gel below its dry volume, an inverted corner) is refused too.
+            let post = CoupledPost {
+                dofs: &self.dofs,
+                fields: self.fields,
+                mode: self.mode,
+                laws: &self.laws,
+                solution: x,
+            };
+            return match recover_coupled_nodal(self.mesh, &post) {
+                Ok(_) => Ok(()),
+                Err(CoupledError::Range {
+                    cell,
+                    point,
+                    source,
+                }) => Err(format!("cell {cell}, at its local node {point}: {source}")),
+                Err(e) => Err(format!("at the nodes: {e}")),
+            };
+        }
+        for (cell, kind, _) in self.mesh.cells() {
             let law = self.laws.law(cell).parts();
             let range = self.dofs.local_range(self.fields.c, kind);
             for &d in &self.dofs.cell_dofs(cell)[range] {
