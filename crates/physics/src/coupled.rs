@@ -27,6 +27,7 @@
 //! needs the same interpolation order for `c` and `μ` (the same local node numbering).
 
 use dilata_fem::dofs::DofMap;
+use dilata_fem::values::SpaceValues;
 use dilata_fem::{
     CellInput, CellKernel, FacetInput, FacetKernel, FieldHandle, GeometryMode, InvertedCell,
     LocalOutput,
@@ -208,10 +209,139 @@ pub struct CoupledKernel<'a> {
 /// Scratch of the coupled kernel.
 pub struct CoupledScratch {
     pub(crate) cache: CellValuesCache,
-    pub(crate) u: Vec<f64>,
-    pub(crate) c: Vec<f64>,
-    pub(crate) c_rate: Vec<f64>,
-    pub(crate) mu: Vec<f64>,
+    pub(crate) local: LocalValues,
+}
+
+/// The field values of one cell, gathered by `CoupledKernel::gather`.
+#[derive(Default)]
+pub(crate) struct LocalValues {
+    pub u: Vec<f64>,
+    pub c: Vec<f64>,
+    pub c_rate: Vec<f64>,
+    pub mu: Vec<f64>,
+}
+
+/// The scalar fields at one quadrature point.
+pub(crate) struct ScalarsAt {
+    pub c: f64,
+    pub c_dot: f64,
+    pub mu: f64,
+    pub grad_mu: Vector3<f64>,
+    /// Zero unless asked for (a law with a gradient energy).
+    pub grad_c: Vector3<f64>,
+}
+
+impl LocalValues {
+    /// `c`, `ċ`, `μ`, `grad μ` and (when `with_grad_c`) `grad c` at point `q` of the `c` and `μ`
+    /// spaces, from the values gathered into the scratch.
+    pub(crate) fn scalars_at(
+        &self,
+        sc: &SpaceValues,
+        sm: &SpaceValues,
+        q: usize,
+        with_grad_c: bool,
+    ) -> ScalarsAt {
+        let (gc, vc) = (sc.grads(q), sc.values(q));
+        let (gm, vm) = (sm.grads(q), sm.values(q));
+        let c: f64 = vc.iter().zip(&self.c).map(|(n, v)| n * v).sum();
+        let c_dot: f64 = vc.iter().zip(&self.c_rate).map(|(n, v)| n * v).sum();
+        let mu: f64 = vm.iter().zip(&self.mu).map(|(n, v)| n * v).sum();
+        let mut grad_mu = Vector3::zeros();
+        for (g, v) in gm.iter().zip(&self.mu) {
+            for d in 0..3 {
+                grad_mu[d] += g[d] * v;
+            }
+        }
+        let mut grad_c = Vector3::zeros();
+        if with_grad_c {
+            for (g, v) in gc.iter().zip(&self.c) {
+                for d in 0..3 {
+                    grad_c[d] += g[d] * v;
+                }
+            }
+        }
+        ScalarsAt {
+            c,
+            c_dot,
+            mu,
+            grad_mu,
+            grad_c,
+        }
+    }
+}
+
+/// The flux and gradient-energy terms a point law gives the scalar rows.
+pub(crate) struct ScalarTerms {
+    pub flux: Vector3<f64>,
+    pub dflux_dc: Vector3<f64>,
+    pub dflux_dgrad_mu: nalgebra::Matrix3<f64>,
+    pub kappa_grad_c: Vector3<f64>,
+    pub kappa: nalgebra::Matrix3<f64>,
+}
+
+/// Where the scalar rows of one cell go, and the point they are integrated at.
+pub(crate) struct ScalarRows<'s> {
+    pub sc: &'s SpaceValues,
+    pub sm: &'s SpaceValues,
+    pub q: usize,
+    pub w: f64,
+    pub rc: std::ops::Range<usize>,
+    pub rm: std::ops::Range<usize>,
+    pub n_loc: usize,
+    pub a0: f64,
+}
+
+impl ScalarRows<'_> {
+    /// Residual of the mass rows `N_a (ċ − s) − grad N_a · J` and the gradient part
+    /// `− grad N_a · κ grad c` of the potential rows (the caller adds `N_a π`).
+    pub(crate) fn residual(&self, fe: &mut [f64], t: &ScalarTerms, c_dot: f64, src: f64) {
+        let (gc, vc) = (self.sc.grads(self.q), self.sc.values(self.q));
+        let gm = self.sm.grads(self.q);
+        for a in 0..vc.len() {
+            let gj = gc[a][0] * t.flux[0] + gc[a][1] * t.flux[1] + gc[a][2] * t.flux[2];
+            fe[self.rc.start + a] += (vc[a] * (c_dot - src) - gj) * self.w;
+        }
+        let kg = t.kappa_grad_c;
+        for a in 0..gm.len() {
+            let gk = gm[a][0] * kg[0] + gm[a][1] * kg[1] + gm[a][2] * kg[2];
+            fe[self.rm.start + a] -= gk * self.w;
+        }
+    }
+
+    /// Tangent of the mass rows by `c` and `μ`, and of the gradient part of the potential rows
+    /// by `c` (when `with_gradient`).
+    pub(crate) fn tangent(&self, ke: &mut [f64], t: &ScalarTerms, with_gradient: bool) {
+        let at = |row: usize, col: usize| row * self.n_loc + col;
+        let (gc, vc) = (self.sc.grads(self.q), self.sc.values(self.q));
+        let gm = self.sm.grads(self.q);
+        let w = self.w;
+        for a in 0..vc.len() {
+            let row = self.rc.start + a;
+            let g = Vector3::new(gc[a][0], gc[a][1], gc[a][2]);
+            let gdj_dc = g.dot(&t.dflux_dc);
+            for b in 0..vc.len() {
+                ke[at(row, self.rc.start + b)] += (vc[a] * self.a0 * vc[b] - gdj_dc * vc[b]) * w;
+            }
+            // −grad N_a · dJ/d(grad μ) · grad N_b
+            let gm_t = t.dflux_dgrad_mu.transpose() * g;
+            for b in 0..gm.len() {
+                let v = -(gm_t[0] * gm[b][0] + gm_t[1] * gm[b][1] + gm_t[2] * gm[b][2]);
+                ke[at(row, self.rm.start + b)] += v * w;
+            }
+        }
+        if with_gradient {
+            // −grad N_a · κ · grad N_b
+            for a in 0..gm.len() {
+                let row = self.rm.start + a;
+                let g = Vector3::new(gm[a][0], gm[a][1], gm[a][2]);
+                let gk = t.kappa.transpose() * g;
+                for b in 0..vc.len() {
+                    let v = gk[0] * gc[b][0] + gk[1] * gc[b][1] + gk[2] * gc[b][2];
+                    ke[at(row, self.rc.start + b)] -= v * w;
+                }
+            }
+        }
+    }
 }
 
 impl CoupledKernel<'_> {
@@ -225,12 +355,13 @@ impl CoupledKernel<'_> {
                 into.clear();
                 into.extend(input.dofs[range].iter().map(|&d| f(d)));
             };
-        gather(ru, &mut s.u, &|d| self.solution[d]);
-        gather(rc.clone(), &mut s.c, &|d| self.solution[d]);
-        gather(rc, &mut s.c_rate, &|d| {
+        let l = &mut s.local;
+        gather(ru, &mut l.u, &|d| self.solution[d]);
+        gather(rc.clone(), &mut l.c, &|d| self.solution[d]);
+        gather(rc, &mut l.c_rate, &|d| {
             self.rate.a0 * self.solution[d] + self.rate.history[d]
         });
-        gather(rm, &mut s.mu, &|d| self.solution[d]);
+        gather(rm, &mut l.mu, &|d| self.solution[d]);
     }
 }
 
@@ -245,10 +376,7 @@ impl CellKernel for CoupledKernel<'_> {
             .collect();
         CoupledScratch {
             cache: CellValuesCache::new(self.mode, stiffness_degree, orders),
-            u: Vec::new(),
-            c: Vec::new(),
-            c_rate: Vec::new(),
-            mu: Vec::new(),
+            local: LocalValues::default(),
         }
     }
 
@@ -262,7 +390,9 @@ impl CellKernel for CoupledKernel<'_> {
             return crate::finite::finite_cell_into(self, input, s, out);
         }
         self.gather(input, s);
-        let cv = s.cache.get(input.kind);
+        let CoupledScratch { cache, local } = s;
+        let s = &*local;
+        let cv = cache.get(input.kind);
         cv.reinit(input.id, input.coords)?;
         let nc = self.dofs.spec(self.fields.u).n_components;
         let ru = self.dofs.local_range(self.fields.u, input.kind);
@@ -281,38 +411,39 @@ impl CellKernel for CoupledKernel<'_> {
             let w = cv.jxw[q];
             let r = cv.points[q][0];
             let (gu, vu) = (su.grads(q), su.values(q));
-            let (gc, vc) = (sc.grads(q), sc.values(q));
-            let (gm, vm) = (sm.grads(q), sm.values(q));
+            let vc = sc.values(q);
+            let vm = sm.values(q);
             let strain: Voigt = strain_at(self.mode, gu, vu, r, &s.u, nc);
-            let c: f64 = (0..ncn).map(|a| vc[a] * s.c[a]).sum();
-            let c_dot: f64 = (0..ncn).map(|a| vc[a] * s.c_rate[a]).sum();
-            let mu: f64 = (0..nmn).map(|a| vm[a] * s.mu[a]).sum();
-            let mut grad_mu = Vector3::zeros();
-            for a in 0..nmn {
-                for d in 0..3 {
-                    grad_mu[d] += gm[a][d] * s.mu[a];
-                }
-            }
-            let mut grad_c = Vector3::zeros();
-            if has_gradient {
-                for a in 0..ncn {
-                    for d in 0..3 {
-                        grad_c[d] += gc[a][d] * s.c[a];
-                    }
-                }
-            }
+            let at_q = s.scalars_at(sc, sm, q, has_gradient);
             let p = law
                 .evaluate(&PointInput {
                     strain,
-                    c,
-                    grad_mu,
-                    grad_c,
+                    c: at_q.c,
+                    grad_mu: at_q.grad_mu,
+                    grad_c: at_q.grad_c,
                 })
                 .map_err(|source| CoupledError::Range {
                     cell: input.id,
                     point: q,
                     source,
                 })?;
+            let rows = ScalarRows {
+                sc,
+                sm,
+                q,
+                w,
+                rc: rc.clone(),
+                rm: rm.clone(),
+                n_loc,
+                a0: self.rate.a0,
+            };
+            let terms = ScalarTerms {
+                flux: p.flux,
+                dflux_dc: p.dflux_dc,
+                dflux_dgrad_mu: p.dflux_dgrad_mu,
+                kappa_grad_c: p.kappa_grad_c,
+                kappa: p.kappa,
+            };
             if let Some(fe) = vector.as_deref_mut() {
                 let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
                 for a in 0..nu {
@@ -323,15 +454,10 @@ impl CellKernel for CoupledKernel<'_> {
                     }
                 }
                 let src = self.source.map_or(0.0, |f| f(cv.points[q]));
-                for a in 0..ncn {
-                    let gj = gc[a][0] * p.flux[0] + gc[a][1] * p.flux[1] + gc[a][2] * p.flux[2];
-                    fe[rc.start + a] += (vc[a] * (c_dot - src) - gj) * w;
-                }
+                rows.residual(fe, &terms, at_q.c_dot, src);
                 let g = self.potential_source.map_or(0.0, |f| f(cv.points[q]));
-                let kg = p.kappa_grad_c;
                 for a in 0..nmn {
-                    let gk = gm[a][0] * kg[0] + gm[a][1] * kg[1] + gm[a][2] * kg[2];
-                    fe[rm.start + a] += (vm[a] * (mu - p.mu_local - g) - gk) * w;
+                    fe[rm.start + a] += vm[a] * (at_q.mu - p.mu_local - g) * w;
                 }
             }
             if let Some(ke) = matrix.as_deref_mut() {
@@ -359,22 +485,8 @@ impl CellKernel for CoupledKernel<'_> {
                         }
                     }
                 }
-                // Mass rows.
-                for a in 0..ncn {
-                    let row = rc.start + a;
-                    let g = Vector3::new(gc[a][0], gc[a][1], gc[a][2]);
-                    let gdj_dc = g.dot(&p.dflux_dc);
-                    for b in 0..ncn {
-                        ke[at(row, rc.start + b)] +=
-                            (vc[a] * self.rate.a0 * vc[b] - gdj_dc * vc[b]) * w;
-                    }
-                    // −grad N_a · dJ/d(grad μ) · grad N_b
-                    let gm_t = p.dflux_dgrad_mu.transpose() * g;
-                    for b in 0..nmn {
-                        let v = -(gm_t[0] * gm[b][0] + gm_t[1] * gm[b][1] + gm_t[2] * gm[b][2]);
-                        ke[at(row, rm.start + b)] += v * w;
-                    }
-                }
+                // Mass rows, and the gradient part of the potential rows.
+                rows.tangent(ke, &terms, has_gradient);
                 // Potential rows.
                 for a in 0..nmn {
                     let row = rm.start + a;
@@ -387,15 +499,6 @@ impl CellKernel for CoupledKernel<'_> {
                     }
                     for b in 0..ncn {
                         ke[at(row, rc.start + b)] -= vm[a] * p.dmu_dc * vc[b] * w;
-                    }
-                    if has_gradient {
-                        // −grad N_a · κ · grad N_b
-                        let g = Vector3::new(gm[a][0], gm[a][1], gm[a][2]);
-                        let gk = p.kappa.transpose() * g;
-                        for b in 0..ncn {
-                            let v = gk[0] * gc[b][0] + gk[1] * gc[b][1] + gk[2] * gc[b][2];
-                            ke[at(row, rc.start + b)] -= v * w;
-                        }
                     }
                     for b in 0..nmn {
                         ke[at(row, rm.start + b)] += vm[a] * vm[b] * w;

@@ -20,9 +20,9 @@ use dilata_fem::dofs::DofMap;
 use dilata_fem::values::{space_kind, FacetValues};
 use dilata_fem::{CellInput, FacetInput, FacetKernel, FieldHandle, GeometryMode, LocalOutput};
 use dilata_material::finite::{flat, FiniteInput};
-use nalgebra::{Matrix3, SVector, Vector3};
+use nalgebra::{Matrix3, SVector};
 
-use crate::coupled::{CoupledError, CoupledKernel, CoupledScratch};
+use crate::coupled::{CoupledError, CoupledKernel, CoupledScratch, ScalarRows, ScalarTerms};
 use crate::poisson::facet_values;
 
 /// `δF` of a unit displacement of one node in each direction (flattened by `flat`).
@@ -89,7 +89,8 @@ pub(crate) fn finite_cell_into(
     out: LocalOutput<'_>,
 ) -> Result<(), CoupledError> {
     k.gather(input, s);
-    let cv = s.cache.get(input.kind);
+    let CoupledScratch { cache, local } = s;
+    let cv = cache.get(input.kind);
     cv.reinit(input.id, input.coords)?;
     let nc = k.dofs.spec(k.fields.u).n_components;
     let ru = k.dofs.local_range(k.fields.u, input.kind);
@@ -109,33 +110,17 @@ pub(crate) fn finite_cell_into(
         let w = cv.jxw[q];
         let r = cv.points[q][0];
         let (gu, vu) = (su.grads(q), su.values(q));
-        let (gc, vc) = (sc.grads(q), sc.values(q));
-        let (gm, vm) = (sm.grads(q), sm.values(q));
-        let f = deformation_gradient(k.mode, gu, vu, r, &s.u, nc, false);
-        let c: f64 = (0..ncn).map(|a| vc[a] * s.c[a]).sum();
-        let c_dot: f64 = (0..ncn).map(|a| vc[a] * s.c_rate[a]).sum();
-        let mu: f64 = (0..nmn).map(|a| vm[a] * s.mu[a]).sum();
-        let mut grad_mu = Vector3::zeros();
-        for a in 0..nmn {
-            for d in 0..3 {
-                grad_mu[d] += gm[a][d] * s.mu[a];
-            }
-        }
-        let mut grad_c = Vector3::zeros();
-        if has_gradient {
-            for a in 0..ncn {
-                for d in 0..3 {
-                    grad_c[d] += gc[a][d] * s.c[a];
-                }
-            }
-        }
+        let vc = sc.values(q);
+        let vm = sm.values(q);
+        let f = deformation_gradient(k.mode, gu, vu, r, &local.u, nc, false);
+        let at_q = local.scalars_at(sc, sm, q, has_gradient);
         let p = law
             .evaluate(&FiniteInput {
                 f,
-                c,
-                mu,
-                grad_mu,
-                grad_c,
+                c: at_q.c,
+                mu: at_q.mu,
+                grad_mu: at_q.grad_mu,
+                grad_c: at_q.grad_c,
             })
             .map_err(|source| CoupledError::Range {
                 cell: input.id,
@@ -145,6 +130,23 @@ pub(crate) fn finite_cell_into(
         dfs.clear();
         dfs.extend((0..nu).map(|a| node_df(k.mode, gu[a], vu[a], r)));
         let p_flat = SVector::<f64, 9>::from_row_slice(p.stress.transpose().as_slice());
+        let rows = ScalarRows {
+            sc,
+            sm,
+            q,
+            w,
+            rc: rc.clone(),
+            rm: rm.clone(),
+            n_loc,
+            a0: k.rate.a0,
+        };
+        let terms = ScalarTerms {
+            flux: p.flux,
+            dflux_dc: p.dflux_dc,
+            dflux_dgrad_mu: p.dflux_dgrad_mu,
+            kappa_grad_c: p.kappa_grad_c,
+            kappa: p.kappa,
+        };
         if let Some(fe) = vector.as_deref_mut() {
             let body = k.body_force.map_or([0.0; 3], |bf| bf(cv.points[q]));
             for a in 0..nu {
@@ -154,15 +156,10 @@ pub(crate) fn finite_cell_into(
                 }
             }
             let src = k.source.map_or(0.0, |sf| sf(cv.points[q]));
-            for a in 0..ncn {
-                let gj = gc[a][0] * p.flux[0] + gc[a][1] * p.flux[1] + gc[a][2] * p.flux[2];
-                fe[rc.start + a] += (vc[a] * (c_dot - src) - gj) * w;
-            }
+            rows.residual(fe, &terms, at_q.c_dot, src);
             let g = k.potential_source.map_or(0.0, |gf| gf(cv.points[q]));
-            let kg = p.kappa_grad_c;
             for a in 0..nmn {
-                let gk = gm[a][0] * kg[0] + gm[a][1] * kg[1] + gm[a][2] * kg[2];
-                fe[rm.start + a] += (vm[a] * (p.potential - g) - gk) * w;
+                fe[rm.start + a] += vm[a] * (p.potential - g) * w;
             }
         }
         if let Some(ke) = matrix.as_deref_mut() {
@@ -200,20 +197,13 @@ pub(crate) fn finite_cell_into(
                     }
                 }
             }
-            // Mass rows.
+            // Mass rows by c and μ, and the gradient part of the potential rows.
+            rows.tangent(ke, &terms, has_gradient);
+            // Mass rows by u: −∇N_a · ∂J₀/∂F : δF_b.
+            let gc = sc.grads(q);
             for a in 0..ncn {
                 let row = rc.start + a;
-                let g = Vector3::new(gc[a][0], gc[a][1], gc[a][2]);
-                let gdj_dc = g.dot(&p.dflux_dc);
-                for b in 0..ncn {
-                    ke[at(row, rc.start + b)] += (vc[a] * k.rate.a0 * vc[b] - gdj_dc * vc[b]) * w;
-                }
-                let gm_t = p.dflux_dgrad_mu.transpose() * g;
-                for b in 0..nmn {
-                    let v = -(gm_t[0] * gm[b][0] + gm_t[1] * gm[b][1] + gm_t[2] * gm[b][2]);
-                    ke[at(row, rm.start + b)] += v * w;
-                }
-                // −∇N_a · ∂J₀/∂F : δF_b
+                let g = gc[a];
                 let g_df = dflux_df[0] * g[0] + dflux_df[1] * g[1] + dflux_df[2] * g[2];
                 for b in 0..nu {
                     for j in 0..nc {
@@ -231,14 +221,6 @@ pub(crate) fn finite_cell_into(
                 }
                 for b in 0..ncn {
                     ke[at(row, rc.start + b)] += vm[a] * p.dpotential_dc * vc[b] * w;
-                }
-                if has_gradient {
-                    let g = Vector3::new(gm[a][0], gm[a][1], gm[a][2]);
-                    let gk = p.kappa.transpose() * g;
-                    for b in 0..ncn {
-                        let v = gk[0] * gc[b][0] + gk[1] * gc[b][1] + gk[2] * gc[b][2];
-                        ke[at(row, rc.start + b)] -= v * w;
-                    }
                 }
                 if p.dpotential_dmu != 0.0 {
                     for b in 0..nmn {
