@@ -33,6 +33,9 @@ fn every_example_checks() {
         "notched_plate",
         "spinodal_quench",
         "misfit_precipitate",
+        "gel_disc",
+        "gel_layer",
+        "swelling_particle",
     ] {
         let (ok, stdout, stderr) = dilata(&["check", &example(name)]);
         assert!(ok, "{name}: {stderr}");
