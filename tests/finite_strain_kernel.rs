@@ -559,6 +559,9 @@ fn patch(
                 nominal = nominal.max(
                     (fin.nominal_stress[node][3 * i + k] - point.stress[(i, k)]).abs() / p_scale,
                 );
+                // The recovered deformation gradient is F̄ itself.
+                let df = (fin.deformation_gradient[node][3 * i + k] - fbar[(i, k)]).abs();
+                assert!(df < 1e-10, "node {node}: F[{i}{k}] off by {df:e}");
             }
         }
         cauchy = cauchy.max((nodal.stress[node] - sigma).amax() / p_scale);

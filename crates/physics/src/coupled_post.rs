@@ -73,6 +73,8 @@ pub struct CoupledNodal {
 pub struct FiniteNodal {
     /// Nominal (first Piola–Kirchhoff) stress in Pa, rows `[xx, xy, xz, yx, yy, yz, zx, zy, zz]`.
     pub nominal_stress: Vec<[f64; 9]>,
+    /// Deformation gradient `F` from the reference state, rows `[xx, xy, xz, yx, …, zz]`.
+    pub deformation_gradient: Vec<[f64; 9]>,
     /// Principal stretches relative to the reference state, largest first.
     pub stretches: Vec<[f64; 3]>,
     /// Volume ratio to the stress-free, species-free state (`FiniteOutput::swelling_ratio`).
@@ -132,6 +134,7 @@ pub fn recover_coupled_nodal(
     let mut count = vec![0u32; n];
     let mut finite = post.laws.is_finite().then(|| FiniteNodal {
         nominal_stress: vec![[0.0; 9]; n],
+        deformation_gradient: vec![[0.0; 9]; n],
         stretches: vec![[0.0; 3]; n],
         swelling_ratio: vec![0.0; n],
     });
@@ -192,6 +195,7 @@ pub fn recover_coupled_nodal(
                 for i in 0..3 {
                     for k in 0..3 {
                         fin.nominal_stress[node][3 * i + k] += out.stress[(i, k)];
+                        fin.deformation_gradient[node][3 * i + k] += f[(i, k)];
                     }
                 }
                 let st = principal_stretches(&f);
@@ -250,6 +254,9 @@ pub fn recover_coupled_nodal(
             if k > 0 {
                 let inv = 1.0 / k as f64;
                 fin.nominal_stress[node].iter_mut().for_each(|v| *v *= inv);
+                fin.deformation_gradient[node]
+                    .iter_mut()
+                    .for_each(|v| *v *= inv);
                 fin.stretches[node].iter_mut().for_each(|v| *v *= inv);
                 fin.swelling_ratio[node] *= inv;
             }
@@ -260,6 +267,7 @@ pub fn recover_coupled_nodal(
         flux[node] = flux[master];
         if let Some(fin) = finite.as_mut() {
             fin.nominal_stress[node] = fin.nominal_stress[master];
+            fin.deformation_gradient[node] = fin.deformation_gradient[master];
             fin.stretches[node] = fin.stretches[master];
             fin.swelling_ratio[node] = fin.swelling_ratio[master];
         }

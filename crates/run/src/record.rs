@@ -373,6 +373,11 @@ pub fn write_snapshot(
                 fin.nominal_stress.iter().flatten().copied().collect(),
             ),
             FieldData::new(
+                "deformation_gradient",
+                FieldKind::Tensor,
+                fin.deformation_gradient.iter().flatten().copied().collect(),
+            ),
+            FieldData::new(
                 "stretch",
                 FieldKind::Vector,
                 fin.stretches.iter().flatten().copied().collect(),
