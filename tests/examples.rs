@@ -469,21 +469,6 @@ fn example_text(name: &str, edits: &[(&str, &str)]) -> String {
     text
 }
 
-/// Bisection for the root of `f` in `[lo, hi]` (f changes sign there), to round-off.
-fn bisect(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
-    let flo = f(lo);
-    assert!(flo * f(hi) < 0.0, "no sign change in [{lo}, {hi}]");
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if (f(mid) > 0.0) == (flo > 0.0) {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
-    }
-    0.5 * (lo + hi)
-}
-
 /// `Nv = G Ω / RT` of the gels of the two gel examples (G = 1 MPa, Ω = 1.8e-5 m³/mol, T =
 /// 298.15 K).
 fn gel_nv() -> f64 {
@@ -511,14 +496,7 @@ fn node_at(model: &Model, px: f64, py: f64, scale: f64) -> usize {
 fn gel_disc_swells_to_the_free_swelling_stretch() {
     let (model, summary, dir) = run_example("gel_disc");
     let (radius, half, l0, chi) = (2.0e-3, 0.5e-3, 1.4, 0.4);
-    let root = bisect(
-        |l: f64| {
-            let l3 = l.powi(-3);
-            gel_nv() * (1.0 / l - l3) + (1.0 - l3).ln() + l3 + chi * l3 * l3
-        },
-        1.0 + 1e-9,
-        100.0,
-    );
+    let root = common::gel::free_stretch(gel_nv(), chi);
     let (dofs, fields) = build_dofs(&model);
     let u = nodal_field(&model.mesh, &dofs, fields.u, &summary.final_solution);
     let corner = node_at(&model, radius, half, radius);
@@ -591,24 +569,12 @@ fn gel_disc_swells_to_the_free_swelling_stretch() {
     assert!(worst_balance(dir.path()) < 1e-10);
 }
 
-/// Thickness stretch `λ_t` (from dry) of a layer held at the in-plane stretch `λ0` in a bath at
-/// μ = 0: `Nv (λ_t − 1/λ_t) + λ0² [ln(1 − 1/J) + 1/J + χ/J²] = 0`, `J = λ0² λ_t` (the same free
-/// energy as Hong, Zhao, Zhou & Suo 2008, eq. 2.6, with P_yy = 0; at λ0 = 1 it is the laterally
-/// constrained layer of Hong, Liu & Suo, Int. J. Solids Struct. 46 (2009) 3282, §4:
-/// `Nv(λ − 1/λ) + ln(1 − 1/λ) + 1/λ + χ/λ² = 0`). In-plane Cauchy stress
-/// `σ = G(λ0² − 1)/(λ0² λ_t) − G(λ_t − 1/λ_t)/λ0²`, the published `−G(λ − 1/λ)` at λ0 = 1.
-/// (The same functions as `bonded_stretch`, `bonded_stress` in tests/gel_swelling.rs.)
+/// Thickness stretch and in-plane Cauchy stress of the laterally constrained layer at the
+/// reference stretch `λ0` (`common::gel::bonded_stretch`, `bonded_stress`: Hong, Liu & Suo,
+/// Int. J. Solids Struct. 46 (2009) 3282, generalised to λ0; the published form at λ0 = 1).
 fn bonded_layer(nv: f64, chi: f64, l0: f64, g: f64) -> (f64, f64) {
-    let lt = bisect(
-        |lt: f64| {
-            let j = l0 * l0 * lt;
-            nv * (lt - 1.0 / lt) + l0 * l0 * ((1.0 - 1.0 / j).ln() + 1.0 / j + chi / (j * j))
-        },
-        1.0 / (l0 * l0) + 1e-9,
-        100.0,
-    );
-    let sigma = g * (l0 * l0 - 1.0) / (l0 * l0 * lt) - g * (lt - 1.0 / lt) / (l0 * l0);
-    (lt, sigma)
+    let lt = common::gel::bonded_stretch(nv, chi, l0);
+    (lt, common::gel::bonded_stress(g, l0, lt))
 }
 
 /// Gel layer bonded to a rigid substrate: far from its free edge (on the centre line, twenty

@@ -15,6 +15,7 @@ use dilata_run::{build_dofs, nodal_field, Model, RunSummary};
 
 mod common;
 
+use common::gel::{bonded_stress, bonded_stretch, free_potential_over_rt, free_stretch};
 use common::{column, history, run_text};
 
 const T: f64 = 298.15;
@@ -25,61 +26,10 @@ fn rt() -> f64 {
     GAS_CONSTANT * T
 }
 
-/// Bisection for the root of `f` in `[lo, hi]` (f changes sign there), to round-off.
-fn bisect(f: impl Fn(f64) -> f64, mut lo: f64, mut hi: f64) -> f64 {
-    let flo = f(lo);
-    assert!(flo * f(hi) < 0.0, "no sign change in [{lo}, {hi}]");
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if (f(mid) > 0.0) == (flo > 0.0) {
-            lo = mid;
-        } else {
-            hi = mid;
-        }
-    }
-    0.5 * (lo + hi)
-}
-
-/// Free swelling stretch in a bath at μ = 0: the root of
-/// `Nv(1/λ − 1/λ³) + ln(1 − λ⁻³) + λ⁻³ + χ λ⁻⁶ = 0` (Hong et al. 2008, eq. 3.3).
-fn free_stretch(nv: f64, chi: f64) -> f64 {
-    bisect(
-        |l: f64| {
-            let l3 = l.powi(-3);
-            nv * (1.0 / l - l3) + (1.0 - l3).ln() + l3 + chi * l3 * l3
-        },
-        1.0 + 1e-9,
-        100.0,
-    )
-}
-
-/// Chemical potential (J/mol) of free swelling at stretch λ from dry (the same equation with
-/// its right-hand side `μ/RT`): the potential of the stress-free reference state.
+/// Chemical potential (J/mol) of free swelling at stretch λ from dry: the potential of the
+/// stress-free reference state.
 fn free_potential(nv: f64, chi: f64, l: f64) -> f64 {
-    let l3 = l.powi(-3);
-    rt() * (nv * (1.0 / l - l3) + (1.0 - l3).ln() + l3 + chi * l3 * l3)
-}
-
-/// Thickness stretch `λ_t` (from dry) of a layer held at the in-plane stretch `λ0` (from dry) in
-/// a bath at μ = 0: `P_yy = 0` of the same free energy,
-/// `Nv (λ_t − 1/λ_t) + λ0² [ln(1 − 1/J) + 1/J + χ/J²] = 0`, `J = λ0² λ_t`. At `λ0 = 1` this is
-/// the laterally constrained layer of Hong, Liu & Suo (2009, eq. 4.3) and Hong et al. (2008):
-/// `Nv(λ − 1/λ) + ln(1 − 1/λ) + 1/λ + χ/λ² = 0`.
-fn bonded_stretch(nv: f64, chi: f64, l0: f64) -> f64 {
-    bisect(
-        |lt: f64| {
-            let j = l0 * l0 * lt;
-            nv * (lt - 1.0 / lt) + l0 * l0 * ((1.0 - 1.0 / j).ln() + 1.0 / j + chi / (j * j))
-        },
-        1.0 / (l0 * l0) + 1e-9,
-        100.0,
-    )
-}
-
-/// In-plane true stress of that layer: `σ = G(λ0² − 1)/(λ0² λ_t) − G(λ_t − 1/λ_t)/λ0²`, which at
-/// `λ0 = 1` is the published `−N k T (λ − 1/λ)` (Hong, Liu & Suo 2009, eq. 4.4).
-fn bonded_stress(g: f64, l0: f64, lt: f64) -> f64 {
-    g * (l0 * l0 - 1.0) / (l0 * l0 * lt) - g * (lt - 1.0 / lt) / (l0 * l0)
+    rt() * free_potential_over_rt(nv, chi, l)
 }
 
 /// A gel material and a bath potential ramped from the reference state's potential to 0 over

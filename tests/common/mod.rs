@@ -1,6 +1,7 @@
 //! Shared helpers of the integration tests.
 #![allow(dead_code)]
 
+pub mod gel;
 pub mod periodic;
 pub mod sphere;
 pub mod stress;

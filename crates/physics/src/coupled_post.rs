@@ -31,7 +31,7 @@ use dilata_fem::{CellValues, FieldHandle, GeometryMode};
 use dilata_material::coupled::{PointInput, PointOutput};
 use dilata_material::elastic::{hydrostatic, max_principal, von_mises, Voigt};
 use dilata_mesh::{Facet, Mesh};
-use nalgebra::Vector3;
+use nalgebra::{Matrix3, Vector3};
 
 use crate::cellcache::{stiffness_degree, CellValuesCache};
 use crate::coupled::{CoupledError, CoupledFields, LawMap};
@@ -39,7 +39,9 @@ use crate::elasticity::strain_at;
 use crate::finite::deformation_gradient;
 use crate::poisson::facet_values;
 use crate::recovery::{cell_size, nodal_strain, nodal_values};
-use dilata_material::finite::{cauchy_voigt, principal_stretches, FiniteInput};
+use dilata_material::finite::{
+    cauchy_voigt, principal_stretches, FiniteInput, FiniteLaw, FiniteOutput,
+};
 
 /// The state of a coupled problem to post-process.
 #[derive(Clone, Copy, Debug)]
@@ -162,31 +164,8 @@ pub fn recover_coupled_nodal(
             for (q, &node) in nodes.iter().enumerate() {
                 let r = cv.points[q][0];
                 let axis = post.mode == GeometryMode::Axisymmetric && r.abs() < 1e-12 * size;
-                let su = &cv.spaces[0];
-                let f = deformation_gradient(
-                    post.mode,
-                    su.grads(q),
-                    su.values(q),
-                    r,
-                    &local.u,
-                    nc,
-                    axis,
-                );
-                let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
-                let mu = local.mu_at(cv, q);
-                let out = law
-                    .evaluate(&FiniteInput {
-                        f,
-                        c,
-                        mu,
-                        grad_mu,
-                        grad_c,
-                    })
-                    .map_err(|source| CoupledError::Range {
-                        cell: id,
-                        point: q,
-                        source,
-                    })?;
+                let FinitePoint { f, out, .. } =
+                    local.finite_at(law, post.mode, cv, (id, q), nc, axis)?;
                 let node = post.dofs.master_node(node);
                 stress[node] += cauchy_voigt(&out.stress, &f);
                 for d in 0..3 {
@@ -316,31 +295,8 @@ pub fn coupled_integrals(
             let law = post.laws.finite_law(id);
             for q in 0..cv.n_points() {
                 let w = cv.jxw[q];
-                let su = &cv.spaces[0];
-                let f = deformation_gradient(
-                    post.mode,
-                    su.grads(q),
-                    su.values(q),
-                    cv.points[q][0],
-                    &local.u,
-                    nc,
-                    false,
-                );
-                let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
-                let mu = local.mu_at(cv, q);
-                let out = law
-                    .evaluate(&FiniteInput {
-                        f,
-                        c,
-                        mu,
-                        grad_mu,
-                        grad_c,
-                    })
-                    .map_err(|source| CoupledError::Range {
-                        cell: id,
-                        point: q,
-                        source,
-                    })?;
+                let FinitePoint { f, out, c, grad_c } =
+                    local.finite_at(law, post.mode, cv, (id, q), nc, false)?;
                 sums.volume += w;
                 sums.deformed_volume += f.determinant() * w;
                 sums.amount += c * w;
@@ -488,6 +444,14 @@ fn field_orders(post: &CoupledPost<'_>) -> [usize; 3] {
     [f.u, f.c, f.mu].map(|h| post.dofs.spec(h).order)
 }
 
+/// A finite-strain law evaluated at one point of a cell.
+struct FinitePoint {
+    f: Matrix3<f64>,
+    out: FiniteOutput,
+    c: f64,
+    grad_c: Vector3<f64>,
+}
+
 /// Local values of the three fields on one cell (reused between cells).
 #[derive(Default)]
 struct LocalFields {
@@ -510,6 +474,45 @@ impl LocalFields {
         fill(&mut self.u, post.fields.u);
         fill(&mut self.c, post.fields.c);
         fill(&mut self.mu, post.fields.mu);
+    }
+
+    /// The deformation gradient at point `q` of `cv` (its axis limit when `axis`), the finite
+    /// law's output there, and the concentration and its gradient; a state outside the law's
+    /// range is the error of cell `cell`, point `q` (`at = (cell, q)`).
+    fn finite_at(
+        &self,
+        law: &FiniteLaw,
+        mode: GeometryMode,
+        cv: &CellValues,
+        (cell, q): (usize, usize),
+        nc: usize,
+        axis: bool,
+    ) -> Result<FinitePoint, CoupledError> {
+        let su = &cv.spaces[0];
+        let f = deformation_gradient(
+            mode,
+            su.grads(q),
+            su.values(q),
+            cv.points[q][0],
+            &self.u,
+            nc,
+            axis,
+        );
+        let (c, grad_mu, grad_c) = self.scalars_at(cv, q);
+        let out = law
+            .evaluate(&FiniteInput {
+                f,
+                c,
+                mu: self.mu_at(cv, q),
+                grad_mu,
+                grad_c,
+            })
+            .map_err(|source| CoupledError::Range {
+                cell,
+                point: q,
+                source,
+            })?;
+        Ok(FinitePoint { f, out, c, grad_c })
     }
 
     /// Potential at point `q` of `cv` (spaces `[u, c, μ]`).
