@@ -165,6 +165,7 @@ impl CoupledPointLaw {
 
     /// Evaluate at one point. Non-finite input, or a concentration outside the range of any of
     /// the laws, gives a recoverable [`RangeError`].
+    #[inline]
     pub fn evaluate(&self, input: &PointInput) -> Result<PointOutput, RangeError> {
         let non_finite = |quantity| RangeError::NonFinite {
             law: RangeLaw::Input,

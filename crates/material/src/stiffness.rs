@@ -123,6 +123,7 @@ impl StiffnessLaw {
 
     /// `C(c)` and its derivatives. The linear law is extrapolated linearly outside
     /// `[0, c_max]` and refuses concentrations where `E(c) ≤ 0`.
+    #[inline]
     pub fn evaluate(&self, c: f64) -> Result<StiffnessState, RangeError> {
         match &self.form {
             Form::Constant(s) => Ok(StiffnessState {

@@ -115,6 +115,7 @@ impl SwellingLaw {
     }
 
     /// `ε_c(c)` and `dε_c/dc` at `c` (mol/m³). Defined for every concentration.
+    #[inline]
     pub fn evaluate(&self, c: f64) -> SwellingState {
         SwellingState {
             strain: self.expansion * (c - self.c_ref),
@@ -148,6 +149,7 @@ pub struct MechanicalState {
 /// Stress and `μ_mech` from the total strain `strain` (Voigt, engineering shears), the stiffness
 /// and the swelling strain at the same concentration. A pure function; see the module
 /// documentation for the formulas.
+#[inline]
 pub fn mechanics(
     stiffness: &StiffnessState,
     swelling: &SwellingState,
