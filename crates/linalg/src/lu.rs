@@ -369,6 +369,14 @@ impl LinearSolver for FaerLu {
         };
         format!("faer-lu/{ordering}")
     }
+
+    /// The factorisations so far (the symbolic analyses are done once per pattern).
+    fn activity(&self) -> Option<String> {
+        Some(format!(
+            "{} numeric factorisations; symbolic analyses: {}",
+            self.stats.n_factorizations, self.stats.n_analyses
+        ))
+    }
 }
 
 /// Equilibration of `a` (see [`FaerLu`]): Ruiz's iteration, which divides every row and
