@@ -398,6 +398,19 @@ impl HostLaw {
         &self.p
     }
 
+    /// Swelling volume ratio `J_s = 1 + Ω (c − c_ref)`, or the range error of a non-positive one.
+    fn swelling_volume(&self, c: f64) -> Result<f64, RangeError> {
+        let js = 1.0 + self.p.partial_molar_volume * (c - self.p.c_ref);
+        if js <= 0.0 {
+            return Err(RangeError::VolumeRatio {
+                law: RangeLaw::HostSwelling,
+                ratio: js,
+                lower: 0.0,
+            });
+        }
+        Ok(js)
+    }
+
     /// Evaluate at one point. An inverted point, or a concentration whose swelling volume
     /// `J_s` is not positive or which the chemical or mobility law refuses, gives a recoverable
     /// [`RangeError`].
@@ -407,14 +420,7 @@ impl HostLaw {
         let p = &self.p;
         let c = input.c;
         let omega = p.partial_molar_volume;
-        let js = 1.0 + omega * (c - p.c_ref);
-        if js <= 0.0 {
-            return Err(RangeError::VolumeRatio {
-                law: RangeLaw::HostSwelling,
-                ratio: js,
-                lower: 0.0,
-            });
-        }
+        let js = self.swelling_volume(c)?;
         let chem = p.chemical.evaluate(c)?;
         let mob = p.mobility.evaluate(c)?;
         let (lam, g_mod) = (p.elastic.lambda(), p.elastic.shear());
@@ -532,14 +538,7 @@ impl FiniteLaw {
                 }
             }
             FiniteLaw::Host(h) => {
-                let js = 1.0 + h.p.partial_molar_volume * (c - h.p.c_ref);
-                if js <= 0.0 {
-                    return Err(RangeError::VolumeRatio {
-                        law: RangeLaw::HostSwelling,
-                        ratio: js,
-                        lower: 0.0,
-                    });
-                }
+                h.swelling_volume(c)?;
                 h.p.chemical.evaluate(c)?;
                 h.p.mobility.evaluate(c)?;
                 Ok(())

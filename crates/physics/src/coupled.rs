@@ -219,6 +219,8 @@ pub(crate) struct LocalValues {
     pub c: Vec<f64>,
     pub c_rate: Vec<f64>,
     pub mu: Vec<f64>,
+    /// Finite strain: `δF` of every displacement node at the current point (reused buffer).
+    pub df: Vec<[nalgebra::SVector<f64, 9>; 3]>,
 }
 
 /// The scalar fields at one quadrature point.

@@ -105,7 +105,7 @@ pub(crate) fn finite_cell_into(
     } = out;
     let law = k.laws.finite_law(input.id);
     let has_gradient = law.has_gradient();
-    let mut dfs: Vec<[SVector<f64, 9>; 3]> = Vec::with_capacity(nu);
+    let mut dfs = std::mem::take(&mut local.df);
     for q in 0..cv.n_points() {
         let w = cv.jxw[q];
         let r = cv.points[q][0];
@@ -230,6 +230,7 @@ pub(crate) fn finite_cell_into(
             }
         }
     }
+    local.df = dfs;
     Ok(())
 }
 
