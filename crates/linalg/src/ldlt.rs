@@ -20,7 +20,7 @@
 use faer::dyn_stack::MemStack;
 use faer::linalg::cholesky::ldlt::factor::{LdltError, LdltRegularization};
 use faer::perm::PermRef;
-use faer::sparse::linalg::cholesky::{IntranodeLbltRef, LdltRef};
+use faer::sparse::linalg::cholesky::{IntranodeLbltRef, LdltRef, SymbolicCholeskyRaw};
 use faer::sparse::linalg::SupernodalThreshold;
 use faer::{Conj, MatMut};
 
@@ -88,6 +88,13 @@ pub struct FaerLdlt {
     matrix: Option<CsrMatrix>,
     factored: bool,
     stats: DirectStats,
+    /// Index structure of a supernodal factor for [`SupernodalSolve`] (None: simplicial).
+    fast: Option<SupernodalSolve>,
+    /// Apply the factor from a single-precision copy of `L` ([`FaerLdlt::set_single_precision_solves`]).
+    single: bool,
+    /// `L` in single precision, valid for the current factorisation when `single_ready`.
+    l_single: Vec<f32>,
+    single_ready: bool,
 }
 
 impl FaerLdlt {
@@ -109,6 +116,26 @@ impl FaerLdlt {
             matrix: None,
             factored: false,
             stats: DirectStats::default(),
+            fast: None,
+            single: false,
+            l_single: Vec::new(),
+            single_ready: false,
+        }
+    }
+
+    /// Apply the factor from a copy of `L` rounded to single precision (sequential supernodal
+    /// factors only; otherwise ignored). Halves the memory read by a solve, which is what a
+    /// solve with a large factor waits for. The result is then an approximate inverse accurate
+    /// to about `1e-7` times the condition number: meant for a preconditioner inside a Krylov
+    /// method that works in double precision, where it costs at most an iteration or two (the
+    /// mixed-precision idea of Carson and Higham, SIAM J. Sci. Comput. 40 (2018) A817, from
+    /// memory), not for a direct solve. The factorisation itself, and its singularity probe,
+    /// stay in double precision.
+    pub fn set_single_precision_solves(&mut self, on: bool) {
+        self.single = on;
+        if !on {
+            self.single_ready = false;
+            self.l_single = Vec::new();
         }
     }
 
@@ -127,6 +154,18 @@ impl FaerLdlt {
         let state = self.state.as_mut().ok_or_else(missing_factor)?;
         let n = state.pattern.n();
         let par = self.params.parallelism.to_faer();
+        if let (Some(fast), true) = (self.fast.as_mut(), par == faer::Par::Seq) {
+            let subdiag = match self.pivoting {
+                LdltPivoting::IntranodeBunchKaufman => Some(self.subdiag.as_slice()),
+                LdltPivoting::Signed(_) => None,
+            };
+            if self.single_ready {
+                fast.solve(&self.l_single, subdiag, rhs);
+            } else {
+                fast.solve(&self.l_values, subdiag, rhs);
+            }
+            return check_finite(rhs);
+        }
         let stack = MemStack::new(&mut state.mem);
         let rhs_mat = MatMut::from_column_major_slice_mut(rhs, n, 1);
         match self.pivoting {
@@ -232,12 +271,14 @@ impl LinearSolver for FaerLdlt {
         self.pivot_inv = (0..n).collect();
         self.stats.n_analyses += 1;
         self.stats.factor_nnz = state.symbolic.len_val();
+        self.fast = SupernodalSolve::new(&state.symbolic);
         self.state = Some(state);
         Ok(())
     }
 
     fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
         self.factored = false;
+        self.single_ready = false;
         self.matrix = None;
         let state = self.state.as_mut().ok_or_else(missing_analysis)?;
         state.pattern.check(matrix)?;
@@ -283,12 +324,28 @@ impl LinearSolver for FaerLdlt {
             }
         }
         self.stats.n_factorizations += 1;
+        if let Some(fast) = self.fast.as_mut() {
+            match self.pivoting {
+                LdltPivoting::IntranodeBunchKaufman => {
+                    fast.set_pivots(Some((&self.pivot_fwd, &self.pivot_inv)))
+                }
+                LdltPivoting::Signed(_) => fast.set_pivots(None),
+            }
+        }
         // Probe solve: a zero pivot leaves infinities or NaNs in the factor, a rounding-level
         // pivot a huge solution (see `check_probe`).
         let b = probe_rhs(n);
         let mut x = b.clone();
         self.apply_factor(&mut x)?;
         check_probe(matrix, &b, &x)?;
+        if self.single && self.fast.is_some() {
+            // Round `L` once per factorisation; an entry beyond the single-precision range
+            // keeps this factorisation in double precision.
+            self.l_single.clear();
+            self.l_single
+                .extend(self.l_values.iter().map(|&v| v as f32));
+            self.single_ready = self.l_single.iter().all(|v| v.is_finite());
+        }
         self.factored = true;
         Ok(())
     }
@@ -321,5 +378,380 @@ impl LinearSolver for FaerLdlt {
             LdltPivoting::Signed(_) => "faer-ldlt-signed",
         };
         format!("{kind}/{}", self.params.ordering.name())
+    }
+}
+
+/// One solve with a supernodal `L D Lᵀ` (or intranodal `L B Lᵀ`) factor of faer, written as
+/// plain loops over the supernodes.
+///
+/// faer's own solve calls a dense triangular solve and a dense matrix product per supernode
+/// (faer 0.24.4, `solve_in_place_no_numeric_permute_with_conj`), whose dispatch costs more than
+/// the arithmetic when the supernodes are small, as they are for 2D meshes under AMD: on the
+/// spinodal and charging-particle benchmarks these calls took a third of the run
+/// (docs/performance.md). The same operations, in the same order of supernodes, with the
+/// column-oriented loops of a sparse triangular solve (Davis, Direct Methods for Sparse Linear
+/// Systems, SIAM 2006, sec. 3.1, from memory); sums are formed in a different order than in
+/// faer's kernels, so results differ from faer's solve by rounding only.
+struct SupernodalSolve {
+    /// First column of each supernode, and one past the last (`n_supernodes + 1` entries).
+    begin: Vec<usize>,
+    /// Start of each supernode's values (column-major, `(size + rows) × size`).
+    val_ptr: Vec<usize>,
+    /// Start of each supernode's off-diagonal rows in `rows`.
+    row_ptr: Vec<usize>,
+    /// Off-diagonal row indices as faer stores them (before the pivoting permutation).
+    raw_rows: Vec<usize>,
+    /// The same rows after the intranodal pivoting permutation of the last factorisation.
+    rows: Vec<usize>,
+    /// Fill-reducing permutation: `fill_fwd[i]` is the original index of position `i`.
+    fill_fwd: Vec<usize>,
+    /// Combined gather for the right-hand side and scatter for the solution.
+    gather: Vec<usize>,
+    scatter: Vec<usize>,
+    x: Vec<f64>,
+    /// Work space of the longest supernode row list.
+    tmp: Vec<f64>,
+}
+
+impl SupernodalSolve {
+    fn new(symbolic: &faer::sparse::linalg::cholesky::SymbolicCholesky<usize>) -> Option<Self> {
+        let SymbolicCholeskyRaw::Supernodal(sn) = symbolic.raw() else {
+            return None;
+        };
+        let n = sn.nrows();
+        let ns = sn.n_supernodes();
+        let mut begin: Vec<usize> = sn.supernode_begin().to_vec();
+        begin.push(sn.supernode_end().last().copied().unwrap_or(0));
+        let val_ptr = sn.col_ptr_for_val()[..=ns].to_vec();
+        let mut row_ptr = Vec::with_capacity(ns + 1);
+        let mut raw_rows = Vec::new();
+        row_ptr.push(0);
+        for s in 0..ns {
+            raw_rows.extend_from_slice(sn.supernode(s).pattern());
+            row_ptr.push(raw_rows.len());
+        }
+        let max_rows = (0..ns)
+            .map(|s| row_ptr[s + 1] - row_ptr[s])
+            .max()
+            .unwrap_or(0);
+        let fill_fwd = match symbolic.perm() {
+            Some(p) => p.arrays().0.to_vec(),
+            None => (0..n).collect(),
+        };
+        let mut out = SupernodalSolve {
+            begin,
+            val_ptr,
+            row_ptr,
+            rows: raw_rows.clone(),
+            raw_rows,
+            gather: fill_fwd.clone(),
+            scatter: vec![0; n],
+            fill_fwd,
+            x: vec![0.0; n],
+            tmp: vec![0.0; max_rows],
+        };
+        out.set_pivots(None);
+        Some(out)
+    }
+
+    /// Compose the fill-reducing permutation with the pivoting permutation of the last
+    /// factorisation (`(forward, inverse)`; None: no pivoting).
+    fn set_pivots(&mut self, pivots: Option<(&[usize], &[usize])>) {
+        let n = self.fill_fwd.len();
+        match pivots {
+            Some((fwd, inv)) => {
+                for i in 0..n {
+                    self.gather[i] = self.fill_fwd[fwd[i]];
+                }
+                for (r, &raw) in self.rows.iter_mut().zip(&self.raw_rows) {
+                    *r = inv[raw];
+                }
+            }
+            None => {
+                self.gather.copy_from_slice(&self.fill_fwd);
+                self.rows.copy_from_slice(&self.raw_rows);
+            }
+        }
+        for (i, &g) in self.gather.iter().enumerate() {
+            self.scatter[g] = i;
+        }
+    }
+
+    /// `rhs := (P L B Lᵀ Pᵀ)⁻¹ rhs`; `subdiag` holds the 2x2 pivots' off-diagonal entries
+    /// (None: a diagonal `D`).
+    fn solve<V: Copy + Into<f64>>(
+        &mut self,
+        values: &[V],
+        subdiag: Option<&[f64]>,
+        rhs: &mut [f64],
+    ) {
+        let x = &mut self.x;
+        for (xi, &g) in x.iter_mut().zip(&self.gather) {
+            *xi = rhs[g];
+        }
+        let ns = self.begin.len() - 1;
+        // Forward, one supernode at a time: its unit lower triangle, its rows below
+        // (accumulated column by column in `tmp`, contiguous in the column-major values, then
+        // scattered), then its pivots (`D` or `B`), whose entries no later supernode changes;
+        // applying them here, while the supernode's values are in cache, saves a pass.
+        let tmp = &mut self.tmp;
+        for s in 0..ns {
+            let (c0, m) = (self.begin[s], self.begin[s + 1] - self.begin[s]);
+            let rows = &self.rows[self.row_ptr[s]..self.row_ptr[s + 1]];
+            let p = rows.len();
+            let ld = m + p;
+            let v = &values[self.val_ptr[s]..self.val_ptr[s + 1]];
+            let t = &mut tmp[..p];
+            t.fill(0.0);
+            for j in 0..m {
+                let col = &v[j * ld..(j + 1) * ld];
+                let xj = x[c0 + j];
+                for i in j + 1..m {
+                    x[c0 + i] -= col[i].into() * xj;
+                }
+                for (ti, &l) in t.iter_mut().zip(&col[m..]) {
+                    *ti += l.into() * xj;
+                }
+            }
+            for (&r, &ti) in rows.iter().zip(t.iter()) {
+                x[r] -= ti;
+            }
+            // 1x1 pivots, and 2x2 pivots where `subdiag` is nonzero (evaluated as in faer
+            // 0.24.4's `solve_in_place_no_numeric_permute_with_conj`).
+            let mut j = 0;
+            while j < m {
+                let i = c0 + j;
+                let e = subdiag.map_or(0.0, |sd| sd[i]);
+                if e == 0.0 {
+                    x[i] *= v[j * ld + j].into().recip();
+                    j += 1;
+                } else {
+                    let d21 = e.recip();
+                    let d11 = d21 * v[j * ld + j].into();
+                    let d22 = d21 * v[(j + 1) * ld + j + 1].into();
+                    let denom = (d11 * d22 - 1.0).recip();
+                    let xk = x[i] * d21;
+                    let xk1 = x[i + 1] * d21;
+                    x[i] = (d22 * xk - xk1) * denom;
+                    x[i + 1] = (d11 * xk1 - xk) * denom;
+                    j += 2;
+                }
+            }
+        }
+        // Backward, supernodes in reverse: the rows below (gathered once into `tmp`; they
+        // belong to later supernodes, already final), column by column in storage order, then
+        // the transposed unit triangle from its last column.
+        for s in (0..ns).rev() {
+            let (c0, m) = (self.begin[s], self.begin[s + 1] - self.begin[s]);
+            let rows = &self.rows[self.row_ptr[s]..self.row_ptr[s + 1]];
+            let p = rows.len();
+            let ld = m + p;
+            let v = &values[self.val_ptr[s]..self.val_ptr[s + 1]];
+            let t = &mut tmp[..p];
+            for (ti, &r) in t.iter_mut().zip(rows) {
+                *ti = x[r];
+            }
+            for j in 0..m {
+                x[c0 + j] -= dot(&v[j * ld + m..(j + 1) * ld], t);
+            }
+            for j in (0..m).rev() {
+                let col = &v[j * ld..j * ld + m];
+                let mut acc = 0.0;
+                for i in j + 1..m {
+                    acc += col[i].into() * x[c0 + i];
+                }
+                x[c0 + j] -= acc;
+            }
+        }
+        for (r, &sc) in rhs.iter_mut().zip(&self.scatter) {
+            *r = x[sc];
+        }
+    }
+}
+
+/// Dot product in four independent partial sums (so that it vectorises).
+#[inline]
+fn dot<V: Copy + Into<f64>>(a: &[V], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a4, ar) = a[..n].split_at(n - n % 4);
+    let (b4, br) = b[..n].split_at(n - n % 4);
+    let mut s = [0.0; 4];
+    for (ca, cb) in a4.chunks_exact(4).zip(b4.chunks_exact(4)) {
+        for k in 0..4 {
+            s[k] += ca[k].into() * cb[k];
+        }
+    }
+    let mut tail = 0.0;
+    for (x, y) in ar.iter().zip(br) {
+        tail += (*x).into() * y;
+    }
+    (s[0] + s[1]) + (s[2] + s[3]) + tail
+}
+
+#[cfg(test)]
+mod tests {
+    use std::sync::Arc;
+
+    use super::*;
+    use crate::ordering::Ordering;
+
+    /// Symmetric matrix from `(row, col, value)` triplets of its lower triangle (mirrored).
+    fn symmetric(n: usize, lower: &[(usize, usize, f64)]) -> CsrMatrix {
+        let mut rows = vec![Vec::new(); n];
+        for &(i, j, _) in lower {
+            rows[i].push(j);
+            rows[j].push(i);
+        }
+        for r in &mut rows {
+            r.sort_unstable();
+            r.dedup();
+        }
+        let mut a = CsrMatrix::zeros(Arc::new(CsrPattern::from_rows(n, rows)));
+        for &(i, j, v) in lower {
+            let k = a.pattern.find(i, j).unwrap();
+            a.values[k] += v;
+            if i != j {
+                let k = a.pattern.find(j, i).unwrap();
+                a.values[k] += v;
+            }
+        }
+        a
+    }
+
+    /// The symmetric form of a Cahn–Hilliard step (docs/theory.md §12) on an `nx × ny × nz`
+    /// grid with a seven-point Laplacian `K`: per node a `c` and a `μ` unknown,
+    /// `[−(f'' I + κ K), I; I, K/a0 + εI]`. With `f''` close to `−κ · degree` (the spinodal
+    /// region) the `c` diagonal is small against the coupling, and Bunch–Kaufman picks 2x2
+    /// pivots.
+    fn cahn_hilliard_form(dims: [usize; 3], fpp: f64) -> CsrMatrix {
+        let (kappa, a0) = (0.7, 40.0);
+        let [nx, ny, nz] = dims;
+        let node = |i: usize, j: usize, k: usize| (k * ny + j) * nx + i;
+        let mut lower = Vec::new();
+        for k in 0..nz {
+            for j in 0..ny {
+                for i in 0..nx {
+                    let p = node(i, j, k);
+                    let (c, mu) = (2 * p, 2 * p + 1);
+                    let mut deg = 0.0;
+                    for (ii, jj, kk, inside) in [
+                        (i + 1, j, k, i + 1 < nx),
+                        (i, j + 1, k, j + 1 < ny),
+                        (i, j, k + 1, k + 1 < nz),
+                        (i.wrapping_sub(1), j, k, i > 0),
+                        (i, j.wrapping_sub(1), k, j > 0),
+                        (i, j, k.wrapping_sub(1), k > 0),
+                    ] {
+                        if !inside {
+                            continue;
+                        }
+                        deg += 1.0;
+                        let q = node(ii, jj, kk);
+                        if q > p {
+                            lower.push((2 * q, c, kappa));
+                            lower.push((2 * q + 1, mu, -1.0 / a0));
+                        }
+                    }
+                    lower.push((c, c, -(fpp + kappa * deg)));
+                    lower.push((mu, c, 1.0));
+                    lower.push((mu, mu, deg / a0 + 1e-3));
+                }
+            }
+        }
+        symmetric(2 * nx * ny * nz, &lower)
+    }
+
+    fn rhs(n: usize) -> Vec<f64> {
+        (0..n)
+            .map(|i| ((i * 37 % 101) as f64 - 50.0) / 17.0)
+            .collect()
+    }
+
+    /// Solve with the plain-loop supernodal solve and with faer's own solve of the same factor.
+    fn both_solves(s: &mut FaerLdlt, b: &[f64]) -> (Vec<f64>, Vec<f64>) {
+        assert!(
+            s.fast.is_some(),
+            "the factor must be supernodal for this test"
+        );
+        let mut ours = b.to_vec();
+        s.apply_factor(&mut ours).unwrap();
+        let fast = s.fast.take();
+        let single = std::mem::replace(&mut s.single_ready, false);
+        let mut faer = b.to_vec();
+        s.apply_factor(&mut faer).unwrap();
+        s.fast = fast;
+        s.single_ready = single;
+        (ours, faer)
+    }
+
+    fn rel_diff(a: &[f64], b: &[f64]) -> f64 {
+        let num = a.iter().zip(b).map(|(x, y)| (x - y).powi(2)).sum::<f64>();
+        let den = b.iter().map(|y| y * y).sum::<f64>();
+        (num / den).sqrt()
+    }
+
+    fn residual(a: &CsrMatrix, x: &[f64], b: &[f64]) -> f64 {
+        let ax = a.mul_vec(x);
+        let r: Vec<f64> = ax.iter().zip(b).map(|(p, q)| p - q).collect();
+        r.iter().map(|v| v * v).sum::<f64>().sqrt() / b.iter().map(|v| v * v).sum::<f64>().sqrt()
+    }
+
+    /// The plain-loop solve is the same operator as faer's solve (to rounding), with 1x1 and
+    /// 2x2 pivots, for both orderings used by the coupled runs; the single-precision copy is
+    /// an approximate inverse only (a preconditioner).
+    #[test]
+    fn supernodal_solve_matches_faer_with_2x2_pivots() {
+        let a = cahn_hilliard_form([24, 24, 1], -2.75);
+        let b = rhs(a.n_rows());
+        for ordering in [Ordering::Amd, Ordering::NestedDissection] {
+            let mut s = FaerLdlt::new(DirectParams::with_ordering(ordering));
+            s.analyze(&a.pattern).unwrap();
+            s.factor(&a).unwrap();
+            assert!(
+                s.subdiag.iter().any(|&e| e != 0.0),
+                "{ordering:?}: no 2x2 pivot, the test would not cover them"
+            );
+            let (ours, faer) = both_solves(&mut s, &b);
+            let d = rel_diff(&ours, &faer);
+            assert!(d <= 1e-12, "{ordering:?}: plain loops vs faer {d:e}");
+            let r = residual(&a, &ours, &b);
+            assert!(r <= 1e-10, "{ordering:?}: residual {r:e}");
+
+            s.set_single_precision_solves(true);
+            s.factor(&a).unwrap();
+            assert!(s.single_ready);
+            let (single, faer) = both_solves(&mut s, &b);
+            // As a preconditioner the single-precision factor must leave a residual far below
+            // one (here each GMRES iteration would gain about four digits); it is not exact.
+            let d = rel_diff(&single, &faer);
+            let r = residual(&a, &single, &b);
+            eprintln!("{ordering:?}: single precision: difference {d:e}, residual {r:e}");
+            assert!(
+                d > 0.0,
+                "{ordering:?}: the single-precision copy was not used"
+            );
+            assert!(r <= 1e-4, "{ordering:?}: single precision residual {r:e}");
+        }
+    }
+
+    /// Static signed pivots (`D` diagonal) on a quasi-definite matrix, 3D so that faer chooses
+    /// its supernodal factorisation.
+    #[test]
+    fn supernodal_solve_matches_faer_with_signed_pivots() {
+        // f'' > 0 (outside the spinodal): the c block is negative definite, the μ block
+        // positive definite.
+        let a = cahn_hilliard_form([12, 12, 12], 2.0);
+        let n = a.n_rows();
+        let signs: Vec<i8> = (0..n).map(|i| if i % 2 == 0 { -1 } else { 1 }).collect();
+        let b = rhs(n);
+        let pivoting = LdltPivoting::Signed(SignedPivots::with_signs(signs));
+        let mut s = FaerLdlt::with_pivoting(DirectParams::with_ordering(Ordering::Amd), pivoting);
+        s.analyze(&a.pattern).unwrap();
+        s.factor(&a).unwrap();
+        let (ours, faer) = both_solves(&mut s, &b);
+        let d = rel_diff(&ours, &faer);
+        assert!(d <= 1e-12, "plain loops vs faer {d:e}");
+        let r = residual(&a, &ours, &b);
+        assert!(r <= 1e-10, "residual {r:e}");
     }
 }

@@ -282,6 +282,8 @@ impl SymmetricFormSolver {
             LdltPivoting::Signed(SignedPivots::with_signs(t.signs.clone()))
         };
         let mut ldlt = FaerLdlt::with_pivoting(self.direct_params(), pivots);
+        // Only a preconditioner: GMRES corrects its rounding (FaerLdlt::set_single_precision_solves).
+        ldlt.set_single_precision_solves(true);
         ldlt.analyze(&structure.s_pattern)?;
         self.structure = Some(structure);
         self.ldlt = Some(ldlt);
