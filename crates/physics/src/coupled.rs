@@ -210,6 +210,11 @@ pub struct CoupledKernel<'a> {
 pub struct CoupledScratch {
     pub(crate) cache: CellValuesCache,
     pub(crate) local: LocalValues,
+    /// Per displacement node at the current point: `B_b`, `C B_b` and `(∂μ/∂ε) B_b`
+    /// (small strain, tangent only).
+    pub(crate) b: Vec<[[f64; 3]; 6]>,
+    pub(crate) cb: Vec<[[f64; 3]; 6]>,
+    pub(crate) mub: Vec<[f64; 3]>,
 }
 
 /// The field values of one cell, gathered by `CoupledKernel::gather`.
@@ -379,6 +384,9 @@ impl CellKernel for CoupledKernel<'_> {
         CoupledScratch {
             cache: CellValuesCache::new(self.mode, stiffness_degree, orders),
             local: LocalValues::default(),
+            b: Vec::with_capacity(27),
+            cb: Vec::with_capacity(27),
+            mub: Vec::with_capacity(27),
         }
     }
 
@@ -392,8 +400,20 @@ impl CellKernel for CoupledKernel<'_> {
             return crate::finite::finite_cell_into(self, input, s, out);
         }
         self.gather(input, s);
-        let CoupledScratch { cache, local } = s;
+        let CoupledScratch {
+            cache,
+            local,
+            b: b_all,
+            cb: cb_all,
+            mub: mub_all,
+        } = s;
         let s = &*local;
+        // Voigt rows that can be nonzero: all six in 3D, xx, yy, zz (hoop) and xy in 2D.
+        let nk = if self.mode == GeometryMode::ThreeD {
+            6
+        } else {
+            4
+        };
         let cv = cache.get(input.kind);
         cv.reinit(input.id, input.coords)?;
         let nc = self.dofs.spec(self.fields.u).n_components;
@@ -403,6 +423,9 @@ impl CellKernel for CoupledKernel<'_> {
         let n_loc = input.dofs.len();
         let (su, sc, sm) = (&cv.spaces[0], &cv.spaces[1], &cv.spaces[2]);
         let (nu, ncn, nmn) = (su.n_nodes(), sc.n_nodes(), sm.n_nodes());
+        // Displacement nodes with unknowns (none in a run without mechanics, whose `u` field
+        // has no components).
+        let nu_m = if nc == 0 { 0 } else { nu };
         let LocalOutput {
             mut matrix,
             mut vector,
@@ -415,7 +438,11 @@ impl CellKernel for CoupledKernel<'_> {
             let (gu, vu) = (su.grads(q), su.values(q));
             let vc = sc.values(q);
             let vm = sm.values(q);
-            let strain: Voigt = strain_at(self.mode, gu, vu, r, &s.u, nc);
+            let strain: Voigt = if nu_m == 0 {
+                Voigt::zeros()
+            } else {
+                strain_at(self.mode, gu, vu, r, &s.u, nc)
+            };
             let at_q = s.scalars_at(sc, sm, q, has_gradient);
             let p = law
                 .evaluate(&PointInput {
@@ -448,10 +475,10 @@ impl CellKernel for CoupledKernel<'_> {
             };
             if let Some(fe) = vector.as_deref_mut() {
                 let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
-                for a in 0..nu {
+                for a in 0..nu_m {
                     let ba = node_b(self.mode, gu[a], vu[a], r);
                     for i in 0..nc {
-                        let v: f64 = (0..6).map(|k| ba[k][i] * p.stress[k]).sum();
+                        let v: f64 = (0..nk).map(|k| ba[k][i] * p.stress[k]).sum();
                         fe[ru.start + a * nc + i] += (v - vu[a] * body[i]) * w;
                     }
                 }
@@ -464,24 +491,42 @@ impl CellKernel for CoupledKernel<'_> {
             }
             if let Some(ke) = matrix.as_deref_mut() {
                 let at = |row: usize, col: usize| row * n_loc + col;
-                // Momentum rows.
-                for a in 0..nu {
-                    let ba = node_b(self.mode, gu[a], vu[a], r);
-                    for i in 0..nc {
-                        let row = ru.start + a * nc + i;
-                        // (Bᵀ C)_a,i as a Voigt row.
-                        let mut bc = [0.0; 6];
-                        for l in 0..6 {
-                            bc[l] = (0..6).map(|k| ba[k][i] * p.dstress_dstrain[(k, l)]).sum();
-                        }
-                        for b in 0..nu {
-                            let bb = node_b(self.mode, gu[b], vu[b], r);
+                // B_b, C B_b and (∂μ/∂ε) B_b once per node and point.
+                b_all.clear();
+                cb_all.clear();
+                mub_all.clear();
+                for b in 0..nu_m {
+                    let bb = node_b(self.mode, gu[b], vu[b], r);
+                    let mut cb = [[0.0; 3]; 6];
+                    let mut mub = [0.0; 3];
+                    for k in 0..nk {
+                        for l in 0..nk {
+                            let ckl = p.dstress_dstrain[(k, l)];
                             for j in 0..nc {
-                                let v: f64 = (0..6).map(|l| bc[l] * bb[l][j]).sum();
-                                ke[at(row, ru.start + b * nc + j)] += v * w;
+                                cb[k][j] += ckl * bb[l][j];
                             }
                         }
-                        let bdc: f64 = (0..6).map(|k| ba[k][i] * p.dstress_dc[k]).sum();
+                        for j in 0..nc {
+                            mub[j] += p.dmu_dstrain[k] * bb[k][j];
+                        }
+                    }
+                    b_all.push(bb);
+                    cb_all.push(cb);
+                    mub_all.push(mub);
+                }
+                // Momentum rows: the symmetric B_aᵀ C B_b (upper block triangle here, mirrored
+                // after the last point) and the coupling to c.
+                match (nc, nk) {
+                    _ if nu_m == 0 => {}
+                    (2, 4) => add_upper_momentum::<2, 4>(ke, n_loc, ru.start, b_all, cb_all, w),
+                    (3, 6) => add_upper_momentum::<3, 6>(ke, n_loc, ru.start, b_all, cb_all, w),
+                    _ => unreachable!("{nc} displacement components with {nk} strain components"),
+                }
+                for a in 0..nu_m {
+                    let ba = &b_all[a];
+                    for i in 0..nc {
+                        let row = ru.start + a * nc + i;
+                        let bdc: f64 = (0..nk).map(|k| ba[k][i] * p.dstress_dc[k]).sum();
                         for b in 0..ncn {
                             ke[at(row, rc.start + b)] += bdc * vc[b] * w;
                         }
@@ -492,11 +537,9 @@ impl CellKernel for CoupledKernel<'_> {
                 // Potential rows.
                 for a in 0..nmn {
                     let row = rm.start + a;
-                    for b in 0..nu {
-                        let bb = node_b(self.mode, gu[b], vu[b], r);
+                    for (b, mub) in mub_all.iter().enumerate() {
                         for j in 0..nc {
-                            let v: f64 = (0..6).map(|k| p.dmu_dstrain[k] * bb[k][j]).sum();
-                            ke[at(row, ru.start + b * nc + j)] -= vm[a] * v * w;
+                            ke[at(row, ru.start + b * nc + j)] -= vm[a] * mub[j] * w;
                         }
                     }
                     for b in 0..ncn {
@@ -508,7 +551,56 @@ impl CellKernel for CoupledKernel<'_> {
                 }
             }
         }
+        if let Some(ke) = matrix {
+            // The lower block triangle of the momentum block from its upper one (the buffer is
+            // zero on entry, `LocalOutput`, and nothing else writes there).
+            for a in 0..nu_m {
+                for i in 0..nc {
+                    let row = ru.start + a * nc + i;
+                    for b in 0..a {
+                        for j in 0..nc {
+                            let col = ru.start + b * nc + j;
+                            ke[row * n_loc + col] = ke[col * n_loc + row];
+                        }
+                    }
+                }
+            }
+        }
         Ok(())
+    }
+}
+
+/// `ke[(a,i),(b,j)] += w Σ_k B_a[k][i] (C B_b)[k][j]` for the node pairs `b ≥ a` of the
+/// displacement block starting at local index `start` (`NC` components per node, `NK` strain
+/// components that can be nonzero).
+#[inline]
+fn add_upper_momentum<const NC: usize, const NK: usize>(
+    ke: &mut [f64],
+    n_loc: usize,
+    start: usize,
+    b_all: &[[[f64; 3]; 6]],
+    cb_all: &[[[f64; 3]; 6]],
+    w: f64,
+) {
+    let nu = b_all.len();
+    for a in 0..nu {
+        for i in 0..NC {
+            let mut bai = [0.0; NK];
+            for k in 0..NK {
+                bai[k] = b_all[a][k][i] * w;
+            }
+            let row = (start + a * NC + i) * n_loc + start;
+            let out = &mut ke[row + a * NC..row + nu * NC];
+            for (blk, cb) in out.chunks_exact_mut(NC).zip(&cb_all[a..]) {
+                for j in 0..NC {
+                    let mut v = 0.0;
+                    for k in 0..NK {
+                        v += bai[k] * cb[k][j];
+                    }
+                    blk[j] += v;
+                }
+            }
+        }
     }
 }
 

@@ -89,7 +89,7 @@ pub(crate) fn finite_cell_into(
     out: LocalOutput<'_>,
 ) -> Result<(), CoupledError> {
     k.gather(input, s);
-    let CoupledScratch { cache, local } = s;
+    let CoupledScratch { cache, local, .. } = s;
     let cv = cache.get(input.kind);
     cv.reinit(input.id, input.coords)?;
     let nc = k.dofs.spec(k.fields.u).n_components;
