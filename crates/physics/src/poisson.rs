@@ -62,12 +62,12 @@ impl CellKernel for PoissonKernel<'_> {
             let g = sv.grads(q);
             let nv = sv.values(q);
             if let Some(ke) = matrix.as_deref_mut() {
-                for a in 0..nn {
-                    for b in 0..nn {
-                        let dot = g[a][0] * g[b][0] + g[a][1] * g[b][1] + g[a][2] * g[b][2];
-                        ke[(range.start + a) * n_loc + range.start + b] +=
-                            self.conductivity * dot * w;
-                    }
+                let kw = self.conductivity * w;
+                // The spatial dimension as a constant, so the dot products unroll.
+                if cv.kind.dim() == 3 {
+                    add_upper_gradient_product::<3>(ke, n_loc, range.start, g, kw);
+                } else {
+                    add_upper_gradient_product::<2>(ke, n_loc, range.start, g, kw);
                 }
             }
             if let Some(fe) = vector.as_deref_mut() {
@@ -85,7 +85,45 @@ impl CellKernel for PoissonKernel<'_> {
                 }
             }
         }
+        if let Some(ke) = matrix {
+            // The tangent is symmetric: the loop above filled its upper triangle (the buffer is
+            // zero on entry, `LocalOutput`), mirror it.
+            for a in 0..nn {
+                for b in 0..a {
+                    ke[(range.start + a) * n_loc + range.start + b] =
+                        ke[(range.start + b) * n_loc + range.start + a];
+                }
+            }
+        }
         Ok(())
+    }
+}
+
+/// `ke[a][b] += kw · grad N_a · grad N_b` for `b ≥ a` (the upper triangle) over the block of
+/// one field starting at local index `off`; gradients beyond the first `D` components are zero
+/// (2D cells).
+#[inline]
+fn add_upper_gradient_product<const D: usize>(
+    ke: &mut [f64],
+    n_loc: usize,
+    off: usize,
+    g: &[[f64; 3]],
+    kw: f64,
+) {
+    let nn = g.len();
+    for a in 0..nn {
+        let mut ga = [0.0; D];
+        for d in 0..D {
+            ga[d] = g[a][d] * kw;
+        }
+        let row = &mut ke[(off + a) * n_loc + off..(off + a) * n_loc + off + nn];
+        for (kab, gb) in row[a..].iter_mut().zip(&g[a..]) {
+            let mut dot = 0.0;
+            for d in 0..D {
+                dot += ga[d] * gb[d];
+            }
+            *kab += dot;
+        }
     }
 }
 
