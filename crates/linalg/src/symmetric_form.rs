@@ -443,12 +443,13 @@ fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(),
     let original = s.values.clone();
     let mut row_max = vec![0.0f64; n];
     for _ in 0..MAX_SWEEPS {
-        row_max.iter_mut().for_each(|m| *m = 0.0);
-        for i in 0..n {
-            for k in p.row_ptr[i]..p.row_ptr[i + 1] {
-                let v = (d[i] * original[k] * d[p.col_idx[k]]).abs();
-                row_max[i] = row_max[i].max(v);
-            }
+        for (i, m) in row_max.iter_mut().enumerate() {
+            *m = scaled_row_max(
+                d[i],
+                &original[p.row_ptr[i]..p.row_ptr[i + 1]],
+                &p.col_idx[p.row_ptr[i]..p.row_ptr[i + 1]],
+                d,
+            );
         }
         if let Some(i) = row_max
             .iter()
@@ -469,6 +470,31 @@ fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(),
         }
     }
     Ok(())
+}
+
+/// `max_k |d_i a_k d_{col_k}|` over one row (0 for an empty row), in four independent running
+/// maxima so that the comparisons do not wait on each other. A NaN entry is passed over, as
+/// `f64::max` does; the caller checks the result.
+#[inline]
+fn scaled_row_max(di: f64, values: &[f64], cols: &[usize], d: &[f64]) -> f64 {
+    let mut m = [0.0f64; 4];
+    let chunks = values.chunks_exact(4).zip(cols.chunks_exact(4));
+    for (v4, c4) in chunks {
+        for t in 0..4 {
+            let x = (di * v4[t] * d[c4[t]]).abs();
+            if x > m[t] {
+                m[t] = x;
+            }
+        }
+    }
+    let done = values.len() - values.len() % 4;
+    for (v, &c) in values[done..].iter().zip(&cols[done..]) {
+        let x = (di * v * d[c]).abs();
+        if x > m[0] {
+            m[0] = x;
+        }
+    }
+    m[0].max(m[1]).max(m[2].max(m[3]))
 }
 
 impl LinearSolver for SymmetricFormSolver {
