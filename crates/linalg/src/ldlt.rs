@@ -722,7 +722,10 @@ mod tests {
             assert!(s.single_ready);
             let (single, faer) = both_solves(&mut s, &b);
             // As a preconditioner the single-precision factor must leave a residual far below
-            // one (here each GMRES iteration would gain about four digits); it is not exact.
+            // one (here each GMRES iteration would gain about four digits); it is not exact:
+            // rounding of 6e-8 amplified by the factor's growth (Carson & Higham, SIAM J. Sci.
+            // Comput. 40 (2018) A817, from memory). Reference for the rest: faer 0.24.4's own
+            // solve of the same factor.
             let d = rel_diff(&single, &faer);
             let r = residual(&a, &single, &b);
             eprintln!("{ordering:?}: single precision: difference {d:e}, residual {r:e}");

@@ -6,7 +6,7 @@
 //! `checkpoint_SSSSSSSS.dck` in the results folder (`S`: the number of accepted steps), UTF-8
 //! text, one `key value` pair per line in a fixed order (see [`Checkpoint`] for the meaning):
 //!
-//! * the first line is `dilata-checkpoint 1`;
+//! * the first line is `dilata-checkpoint 3` (the version);
 //! * a real number is the 16 hexadecimal digits of its IEEE 754 bits (`3ff0000000000000` is
 //!   1.0), so it reads back to the same bits; an absent optional value is `-`;
 //! * an integer is decimal;
