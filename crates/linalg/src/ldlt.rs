@@ -384,14 +384,17 @@ impl LinearSolver for FaerLdlt {
 /// One solve with a supernodal `L D Lᵀ` (or intranodal `L B Lᵀ`) factor of faer, written as
 /// plain loops over the supernodes.
 ///
-/// faer's own solve calls a dense triangular solve and a dense matrix product per supernode
-/// (faer 0.24.4, `solve_in_place_no_numeric_permute_with_conj`), whose dispatch costs more than
-/// the arithmetic when the supernodes are small, as they are for 2D meshes under AMD: on the
-/// spinodal and charging-particle benchmarks these calls took a third of the run
-/// (docs/performance.md). The same operations, in the same order of supernodes, with the
-/// column-oriented loops of a sparse triangular solve (Davis, Direct Methods for Sparse Linear
-/// Systems, SIAM 2006, sec. 3.1, from memory); sums are formed in a different order than in
-/// faer's kernels, so results differ from faer's solve by rounding only.
+/// faer's own solve (faer 0.24.4, `solve_in_place_no_numeric_permute_with_conj`) took a
+/// quarter to a third of the spinodal and charging-particle benchmarks (docs/performance.md).
+/// It waits on memory: it applies the pivots in a pass of its own, which misses the cache once
+/// per column (the diagonal entries lie a whole supernode block apart), and it reads `L` in
+/// double precision. This solve does the same operations, in the same order of supernodes, with
+/// the column-oriented loops of a sparse triangular solve (Davis, Direct Methods for Sparse
+/// Linear Systems, SIAM 2006, sec. 3.1, from memory), applies each supernode's pivots in the
+/// forward pass while its block is in cache, and can read a single-precision copy of `L`
+/// (measured: the plain loops alone were no faster than faer's calls; the fused pivots and the
+/// copy were). Sums are formed in a different order than in faer's kernels, so in double
+/// precision the results differ from faer's solve by rounding only.
 struct SupernodalSolve {
     /// First column of each supernode, and one past the last (`n_supernodes + 1` entries).
     begin: Vec<usize>,
