@@ -248,17 +248,18 @@ pub struct FollowerPressureKernel<'a> {
 }
 
 impl FacetKernel for FollowerPressureKernel<'_> {
-    type Scratch = Vec<FacetValues>;
+    /// Facet values per facet kind, and the current positions of one facet's nodes.
+    type Scratch = (Vec<FacetValues>, Vec<[f64; 3]>);
     type Error = std::convert::Infallible;
 
-    fn build_scratch(&self) -> Vec<FacetValues> {
-        Vec::new()
+    fn build_scratch(&self) -> Self::Scratch {
+        (Vec::new(), Vec::new())
     }
 
     fn facet_into(
         &self,
         input: &FacetInput<'_>,
-        cache: &mut Vec<FacetValues>,
+        (cache, x): &mut Self::Scratch,
         out: LocalOutput<'_>,
     ) -> Result<(), Self::Error> {
         let nc = self.dofs.spec(self.field).n_components;
@@ -272,16 +273,15 @@ impl FacetKernel for FollowerPressureKernel<'_> {
         let nf = table.n_nodes;
         // Current positions of the facet's space nodes (vertex-first: a linear space on a
         // quadratic facet uses its first nodes).
-        let x: Vec<[f64; 3]> = (0..nf)
-            .map(|b| {
-                let mut p = input.facet_coords[b];
-                let local = input.local_nodes[b];
-                for (j, pj) in p.iter_mut().enumerate().take(nc) {
-                    *pj += self.solution[input.cell.dofs[range.start + local * nc + j]];
-                }
-                p
-            })
-            .collect();
+        x.clear();
+        x.extend((0..nf).map(|b| {
+            let mut p = input.facet_coords[b];
+            let local = input.local_nodes[b];
+            for (j, pj) in p.iter_mut().enumerate().take(nc) {
+                *pj += self.solution[input.cell.dofs[range.start + local * nc + j]];
+            }
+            p
+        }));
         let fdim = fk.dim();
         let LocalOutput {
             mut matrix,

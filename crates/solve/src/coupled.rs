@@ -114,6 +114,18 @@ pub struct CoupledProblem<'m> {
 }
 
 impl<'m> CoupledProblem<'m> {
+    /// The post-processing view of state `solution` (this problem's DOFs, fields, mode and
+    /// laws).
+    pub fn post<'s>(&'s self, solution: &'s [f64]) -> CoupledPost<'s> {
+        CoupledPost {
+            dofs: &self.dofs,
+            fields: self.fields,
+            mode: self.mode,
+            laws: &self.laws,
+            solution,
+        }
+    }
+
     /// Build the assembler (pattern, colouring) for `dofs`, which must hold the three fields.
     pub fn new(
         mesh: &'m Mesh,
@@ -513,14 +525,7 @@ impl TransientSystem for CoupledProblem<'_> {
     /// Elastic + chemical + gradient energy of the body (`coupled_integrals`); `None` when a
     /// quadrature point is outside its law's range (the step is then rejected elsewhere).
     fn free_energy(&self, x: &[f64]) -> Option<f64> {
-        let post = CoupledPost {
-            dofs: &self.dofs,
-            fields: self.fields,
-            mode: self.mode,
-            laws: &self.laws,
-            solution: x,
-        };
-        coupled_integrals(self.mesh, &post)
+        coupled_integrals(self.mesh, &self.post(x))
             .ok()
             .map(|i| i.elastic_energy + i.chemical_energy + i.gradient_energy)
     }
@@ -542,14 +547,7 @@ impl TransientSystem for CoupledProblem<'_> {
             // The results are reported at the nodes, where the deformation gradient of each
             // cell is extrapolated from its quadrature points: a state the law cannot take there
             // (a node of a drying gel below its dry volume, an inverted corner) is refused too.
-            let post = CoupledPost {
-                dofs: &self.dofs,
-                fields: self.fields,
-                mode: self.mode,
-                laws: &self.laws,
-                solution: x,
-            };
-            return match recover_coupled_nodal(self.mesh, &post) {
+            return match recover_coupled_nodal(self.mesh, &self.post(x)) {
                 Ok(_) => Ok(()),
                 Err(CoupledError::Range {
                     cell,
