@@ -10,7 +10,9 @@ use crate::solver::{LinalgError, LinearSolver, SolveInfo};
 /// memory; Saad 2003, Algorithm 6.9 with Givens rotations as in sec. 6.5.3, right
 /// preconditioning as in Algorithm 9.5). Right preconditioning keeps the minimised quantity the
 /// true residual `|b - A x|`. Orthogonalisation is modified Gram–Schmidt. `restart` (m) is
-/// taken from [`KrylovParams`]; each matrix–vector product counts as one iteration.
+/// taken from [`KrylovParams`]; each matrix–vector product counts as one iteration. The
+/// preconditioned vectors `M v_k` are kept for the update (up to `m` vectors of length `n`
+/// beside the basis), so a cycle of `k` iterations applies `M` `k` times, not `k + 1`.
 pub struct Gmres {
     core: KrylovCore,
 }
@@ -89,13 +91,24 @@ pub(crate) fn gmres_iterate(
     // Krylov basis V (m + 1 vectors), Hessenberg H stored by columns (column j has j + 2
     // entries), rotations (c, s), and the rotated right-hand side g.
     let mut v: Vec<Vec<f64>> = (0..=m).map(|_| vec![0.0; n]).collect();
+    // The preconditioned basis `z_k = M v_k`, kept so that the update `x += M V y` is
+    // `x += Z y` without another application of `M` (as flexible GMRES keeps it, Saad 2003,
+    // sec. 9.4.1; for a fixed `M` the same iterate). Allocated as the cycle grows.
+    let mut zs: Vec<Vec<f64>> = Vec::new();
     let mut h = vec![vec![0.0; m + 1]; m];
     let (mut cs, mut sn) = (vec![0.0; m], vec![0.0; m]);
     let mut g = vec![0.0; m + 1];
-    let (mut r, mut z, mut w) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
+    let (mut r, mut w) = (vec![0.0; n], vec![0.0; n]);
     let mut iterations = 0;
+    let mut x_is_zero = true;
     loop {
-        let beta = residual_into(a, x, &b, &mut r, par);
+        let beta = if x_is_zero {
+            // r = b − A·0: no product needed.
+            r.copy_from_slice(&b);
+            b_norm
+        } else {
+            residual_into(a, x, &b, &mut r, par)
+        };
         if beta <= tol {
             return Ok(SolveInfo {
                 iterations,
@@ -116,8 +129,11 @@ pub(crate) fn gmres_iterate(
         let mut k = 0; // number of completed Arnoldi steps in this cycle
         while k < m && iterations < params.max_iter {
             // w = A M v_k
-            precondition(&v[k], &mut z)?;
-            spmv(a, &z, &mut w, par);
+            if zs.len() <= k {
+                zs.push(vec![0.0; n]);
+            }
+            precondition(&v[k], &mut zs[k])?;
+            spmv(a, &zs[k], &mut w, par);
             iterations += 1;
             for i in 0..=k {
                 let hik = crate::krylov::dot(&w, &v[i]);
@@ -153,7 +169,7 @@ pub(crate) fn gmres_iterate(
                 break;
             }
         }
-        // Solve the k x k upper triangular system H y = g and update x += M (V y).
+        // Solve the k x k upper triangular system H y = g and update x += M (V y) = Z y.
         let mut y = vec![0.0; k];
         for i in (0..k).rev() {
             let mut s = g[i];
@@ -167,14 +183,14 @@ pub(crate) fn gmres_iterate(
             y[i] = s / h[i][i];
         }
         w.fill(0.0);
-        for (yi, vi) in y.iter().zip(&v) {
-            for (wj, vj) in w.iter_mut().zip(vi) {
-                *wj += yi * vj;
+        for (yi, zi) in y.iter().zip(&zs) {
+            for (wj, zj) in w.iter_mut().zip(zi) {
+                *wj += yi * zj;
             }
         }
-        precondition(&w, &mut z)?;
-        for (xi, zi) in x.iter_mut().zip(&z) {
-            *xi += zi;
+        for (xi, wi) in x.iter_mut().zip(&w) {
+            *xi += wi;
         }
+        x_is_zero = false;
     }
 }
