@@ -120,6 +120,9 @@ pub struct SolverConfig {
     pub krylov: KrylovParams,
     /// Threads for factorisations, solves and matrix–vector products.
     pub parallelism: Parallelism,
+    /// Threads for the solve phase of the symmetric-form solver when they differ from
+    /// `parallelism` (see `SymmetricFormParams::solve_parallelism`); None: the same.
+    pub solve_parallelism: Option<Parallelism>,
 }
 
 /// Build a solver with default settings (sequential, [`KrylovParams::default`]).
@@ -144,6 +147,7 @@ pub fn build_solver_with(kind: SolverKind, config: SolverConfig) -> Box<dyn Line
             Box::new(SymmetricFormSolver::new(SymmetricFormParams {
                 ordering,
                 parallelism: config.parallelism,
+                solve_parallelism: config.solve_parallelism,
                 ..SymmetricFormParams::default()
             }))
         }

@@ -90,6 +90,8 @@ pub struct FaerLdlt {
     stats: DirectStats,
     /// Index structure of a supernodal factor for [`SupernodalSolve`] (None: simplicial).
     fast: Option<SupernodalSolve>,
+    /// Whether the plain-loop solve may run its two tree parts on two threads.
+    solve_parallel: bool,
     /// Apply the factor from a single-precision copy of `L` ([`FaerLdlt::set_single_precision_solves`]).
     single: bool,
     /// `L` in single precision, valid for the current factorisation when `single_ready`.
@@ -117,6 +119,7 @@ impl FaerLdlt {
             factored: false,
             stats: DirectStats::default(),
             fast: None,
+            solve_parallel: false,
             single: false,
             l_single: Vec::new(),
             single_ready: false,
@@ -140,6 +143,13 @@ impl FaerLdlt {
     }
 
     /// Counts of analyses and factorisations, and the size of `L`.
+    /// Threads for the plain-loop supernodal solve of a sequential factorisation (used when
+    /// the factorisation itself runs on one thread): with two or more, the two parts of its
+    /// elimination-tree split run at once (the result is the same to the last bit).
+    pub fn set_solve_parallelism(&mut self, parallelism: crate::parallel::Parallelism) {
+        self.solve_parallel = parallelism.is_parallel();
+    }
+
     pub fn stats(&self) -> DirectStats {
         self.stats
     }
@@ -160,9 +170,9 @@ impl FaerLdlt {
                 LdltPivoting::Signed(_) => None,
             };
             if self.single_ready {
-                fast.solve(&self.l_single, subdiag, rhs);
+                fast.solve(&self.l_single, subdiag, rhs, self.solve_parallel);
             } else {
-                fast.solve(&self.l_values, subdiag, rhs);
+                fast.solve(&self.l_values, subdiag, rhs, self.solve_parallel);
             }
             return check_finite(rhs);
         }
@@ -404,16 +414,167 @@ struct SupernodalSolve {
     row_ptr: Vec<usize>,
     /// Off-diagonal row indices as faer stores them (before the pivoting permutation).
     raw_rows: Vec<usize>,
-    /// The same rows after the intranodal pivoting permutation of the last factorisation.
+    /// The same rows after the intranodal pivoting permutation of the last factorisation, as
+    /// positions in the work vector (see `pos`).
     rows: Vec<usize>,
     /// Fill-reducing permutation: `fill_fwd[i]` is the original index of position `i`.
     fill_fwd: Vec<usize>,
-    /// Combined gather for the right-hand side and scatter for the solution.
+    /// Position in the work vector of each column of the factor: the columns of part 0, then
+    /// of part 1, then of the top part (see [`TreeSplit`]), each in column order.
+    pos: Vec<usize>,
+    /// Position of each supernode's first column.
+    xbeg: Vec<usize>,
+    split: TreeSplit,
+    /// Combined gather for the right-hand side and scatter for the solution (by position).
     gather: Vec<usize>,
     scatter: Vec<usize>,
     x: Vec<f64>,
-    /// Work space of the longest supernode row list.
-    tmp: Vec<f64>,
+    /// Work space of the longest supernode row list, one per part.
+    tmp: [Vec<f64>; 2],
+    /// Updates of the two parts to the top part's entries (forward pass).
+    acc: [Vec<f64>; 2],
+    /// The processor has AVX2 (x86-64 only; see `Pass::forward`).
+    avx2: bool,
+}
+
+/// Two disjoint sets of subtrees of the supernodal elimination tree and the rest (their
+/// ancestors, the top part). The forward and backward passes over the two parts touch
+/// disjoint entries except for the parts' updates to the top, which each part sums on its own;
+/// so the parts can run on two threads (the subtree-to-processor mapping of parallel sparse
+/// triangular solves; George, Heath, Liu & Ng, SIAM J. Sci. Stat. Comput. 9 (1988) 327, from
+/// memory). The split depends on the symbolic structure only, and the arithmetic is the same
+/// whether the parts run one after the other or at once: the result does not depend on the
+/// thread count.
+struct TreeSplit {
+    /// Supernodes of part 0, part 1 and the top part, each in increasing order.
+    order: [Vec<usize>; 3],
+    /// Per supernode, how many of its off-diagonal rows lie in its own part (they come first;
+    /// the rest lie in the top part). All of them for a top supernode.
+    own_rows: Vec<usize>,
+    /// First position of part 1 and of the top part.
+    start: [usize; 2],
+}
+
+/// Largest imbalance between the two parts (fraction of their total work) the split accepts.
+const SPLIT_IMBALANCE: f64 = 0.02;
+/// Largest share of the total work the split moves into the sequential top part.
+const SPLIT_TOP_SHARE: f64 = 0.2;
+
+impl TreeSplit {
+    /// Split the supernodes (first columns `begin`, off-diagonal rows `rows[row_ptr[s]..]` in
+    /// faer's column numbering, values `(m + p) m` per supernode).
+    fn new(begin: &[usize], row_ptr: &[usize], rows: &[usize]) -> TreeSplit {
+        let ns = begin.len() - 1;
+        let n = begin[ns];
+        let mut sn_of_col = vec![0; n];
+        for s in 0..ns {
+            sn_of_col[begin[s]..begin[s + 1]].fill(s);
+        }
+        let parent: Vec<Option<usize>> = (0..ns)
+            .map(|s| {
+                rows[row_ptr[s]..row_ptr[s + 1]]
+                    .iter()
+                    .min()
+                    .map(|&r| sn_of_col[r])
+            })
+            .collect();
+        let mut children = vec![Vec::new(); ns];
+        let mut roots = Vec::new();
+        let work: Vec<f64> = (0..ns)
+            .map(|s| {
+                let m = begin[s + 1] - begin[s];
+                ((m + row_ptr[s + 1] - row_ptr[s]) * m) as f64
+            })
+            .collect();
+        let mut subtree = work.clone();
+        for s in 0..ns {
+            match parent[s] {
+                Some(p) => {
+                    debug_assert!(p > s, "a parent follows its children");
+                    children[p].push(s);
+                    subtree[p] += subtree[s];
+                }
+                None => roots.push(s),
+            }
+        }
+        let total: f64 = roots.iter().map(|&r| subtree[r]).sum();
+        // Expand the heaviest subtree of the frontier into the top part until the frontier's
+        // subtrees can be dealt to two parts of nearly equal work (largest first, each to the
+        // lighter part).
+        let mut frontier = roots;
+        let mut top = Vec::new();
+        let mut top_work = 0.0;
+        let deal = |frontier: &mut Vec<usize>| -> ([Vec<usize>; 2], [f64; 2]) {
+            frontier.sort_by(|&a, &b| subtree[b].total_cmp(&subtree[a]).then(a.cmp(&b)));
+            let mut parts: [Vec<usize>; 2] = [Vec::new(), Vec::new()];
+            let mut load = [0.0; 2];
+            for &r in frontier.iter() {
+                let k = usize::from(load[1] < load[0]);
+                parts[k].push(r);
+                load[k] += subtree[r];
+            }
+            (parts, load)
+        };
+        let (mut parts, mut load) = deal(&mut frontier);
+        loop {
+            let sum = load[0] + load[1];
+            if sum <= 0.0 || (load[0] - load[1]).abs() <= SPLIT_IMBALANCE * sum {
+                break;
+            }
+            let h = frontier[0];
+            if children[h].is_empty() || top_work + work[h] > SPLIT_TOP_SHARE * total {
+                break;
+            }
+            frontier.remove(0);
+            frontier.extend_from_slice(&children[h]);
+            top.push(h);
+            top_work += work[h];
+            (parts, load) = deal(&mut frontier);
+        }
+        let mut part = vec![2u8; ns];
+        for (k, roots) in parts.iter().enumerate() {
+            let mut stack = roots.clone();
+            while let Some(s) = stack.pop() {
+                part[s] = k as u8;
+                stack.extend_from_slice(&children[s]);
+            }
+        }
+        let mut order: [Vec<usize>; 3] = [Vec::new(), Vec::new(), Vec::new()];
+        for s in 0..ns {
+            order[part[s] as usize].push(s);
+        }
+        // A supernode's rows are its ancestors; listed in increasing order, those in its own
+        // part come before those in the top part. Should a row list not be ordered so, the
+        // solve keeps a single part (correct, only not split).
+        let mut own_rows = Vec::with_capacity(ns);
+        for s in 0..ns {
+            let r = &rows[row_ptr[s]..row_ptr[s + 1]];
+            let own = r
+                .iter()
+                .take_while(|&&c| part[sn_of_col[c]] == part[s])
+                .count();
+            if !r[own..].iter().all(|&c| part[sn_of_col[c]] == 2) {
+                part.fill(0);
+                order = [(0..ns).collect(), Vec::new(), Vec::new()];
+                own_rows = (0..ns).map(|s| row_ptr[s + 1] - row_ptr[s]).collect();
+                break;
+            }
+            own_rows.push(own);
+        }
+        let cols = |k: usize| -> usize {
+            order[k]
+                .iter()
+                .map(|&s| begin[s + 1] - begin[s])
+                .sum::<usize>()
+        };
+        let n0 = cols(0);
+        let n1 = cols(1);
+        TreeSplit {
+            order,
+            own_rows,
+            start: [n0, n0 + n1],
+        }
+    }
 }
 
 impl SupernodalSolve {
@@ -441,6 +602,20 @@ impl SupernodalSolve {
             Some(p) => p.arrays().0.to_vec(),
             None => (0..n).collect(),
         };
+        let split = TreeSplit::new(&begin, &row_ptr, &raw_rows);
+        let mut pos = vec![0; n];
+        let mut xbeg = vec![0; ns];
+        let mut next = 0;
+        for part in &split.order {
+            for &s in part {
+                xbeg[s] = next;
+                for (k, c) in (begin[s]..begin[s + 1]).enumerate() {
+                    pos[c] = next + k;
+                }
+                next += begin[s + 1] - begin[s];
+            }
+        }
+        let n_top = n - split.start[1];
         let mut out = SupernodalSolve {
             begin,
             val_ptr,
@@ -450,30 +625,35 @@ impl SupernodalSolve {
             gather: fill_fwd.clone(),
             scatter: vec![0; n],
             fill_fwd,
+            pos,
+            xbeg,
+            split,
             x: vec![0.0; n],
-            tmp: vec![0.0; max_rows],
+            tmp: [vec![0.0; max_rows], vec![0.0; max_rows]],
+            acc: [vec![0.0; n_top], vec![0.0; n_top]],
+            #[cfg(target_arch = "x86_64")]
+            avx2: std::arch::is_x86_feature_detected!("avx2"),
+            #[cfg(not(target_arch = "x86_64"))]
+            avx2: false,
         };
         out.set_pivots(None);
         Some(out)
     }
 
     /// Compose the fill-reducing permutation with the pivoting permutation of the last
-    /// factorisation (`(forward, inverse)`; None: no pivoting).
+    /// factorisation (`(forward, inverse)`; None: no pivoting) and the parts' positions.
     fn set_pivots(&mut self, pivots: Option<(&[usize], &[usize])>) {
         let n = self.fill_fwd.len();
-        match pivots {
-            Some((fwd, inv)) => {
-                for i in 0..n {
-                    self.gather[i] = self.fill_fwd[fwd[i]];
-                }
-                for (r, &raw) in self.rows.iter_mut().zip(&self.raw_rows) {
-                    *r = inv[raw];
-                }
-            }
-            None => {
-                self.gather.copy_from_slice(&self.fill_fwd);
-                self.rows.copy_from_slice(&self.raw_rows);
-            }
+        for i in 0..n {
+            let original = match pivots {
+                Some((fwd, _)) => self.fill_fwd[fwd[i]],
+                None => self.fill_fwd[i],
+            };
+            self.gather[self.pos[i]] = original;
+        }
+        for (r, &raw) in self.rows.iter_mut().zip(&self.raw_rows) {
+            let pivoted = pivots.map_or(raw, |(_, inv)| inv[raw]);
+            *r = self.pos[pivoted];
         }
         for (i, &g) in self.gather.iter().enumerate() {
             self.scatter[g] = i;
@@ -481,29 +661,173 @@ impl SupernodalSolve {
     }
 
     /// `rhs := (P L B Lᵀ Pᵀ)⁻¹ rhs`; `subdiag` holds the 2x2 pivots' off-diagonal entries
-    /// (None: a diagonal `D`).
-    fn solve<V: Copy + Into<f64>>(
+    /// (None: a diagonal `D`). With `parallel`, the two parts of the tree split run on two
+    /// rayon threads (same result).
+    fn solve<V: Copy + Into<f64> + Sync>(
         &mut self,
         values: &[V],
         subdiag: Option<&[f64]>,
         rhs: &mut [f64],
+        parallel: bool,
     ) {
-        let x = &mut self.x;
-        for (xi, &g) in x.iter_mut().zip(&self.gather) {
+        for (xi, &g) in self.x.iter_mut().zip(&self.gather) {
             *xi = rhs[g];
         }
-        let ns = self.begin.len() - 1;
-        // Forward, one supernode at a time: its unit lower triangle, its rows below
-        // (accumulated column by column in `tmp`, contiguous in the column-major values, then
-        // scattered), then its pivots (`D` or `B`), whose entries no later supernode changes;
-        // applying them here, while the supernode's values are in cache, saves a pass.
-        let tmp = &mut self.tmp;
-        for s in 0..ns {
-            let (c0, m) = (self.begin[s], self.begin[s + 1] - self.begin[s]);
+        let [s1, st] = self.split.start;
+        let pass = Pass {
+            begin: &self.begin,
+            xbeg: &self.xbeg,
+            val_ptr: &self.val_ptr,
+            row_ptr: &self.row_ptr,
+            rows: &self.rows,
+            own_rows: &self.split.own_rows,
+            values,
+            subdiag,
+            avx2: self.avx2,
+        };
+        let [o0, o1, o2] = &self.split.order;
+        let [t0, t1] = &mut self.tmp;
+        let [a0, a1] = &mut self.acc;
+        let (x01, xtop) = self.x.split_at_mut(st);
+        let (x0, x1) = x01.split_at_mut(s1);
+        // Forward: the two parts (their updates to the top summed apart), then the top.
+        a0.fill(0.0);
+        a1.fill(0.0);
+        let mut part0 = || pass.forward(o0, x0, 0, a0, st, t0);
+        let mut part1 = || pass.forward(o1, x1, s1, a1, st, t1);
+        if parallel {
+            rayon::join(part0, part1);
+        } else {
+            part0();
+            part1();
+        }
+        for ((x, u0), u1) in xtop.iter_mut().zip(a0.iter()).zip(a1.iter()) {
+            *x -= u0;
+            *x -= u1;
+        }
+        pass.forward(o2, xtop, st, &mut [], st, t0);
+        // Backward: the top, then the two parts (which read the top).
+        pass.backward(o2, xtop, st, &[], st, t0);
+        let top = &*xtop;
+        let mut part0 = || pass.backward(o0, x0, 0, top, st, t0);
+        let mut part1 = || pass.backward(o1, x1, s1, top, st, t1);
+        if parallel {
+            rayon::join(part0, part1);
+        } else {
+            part0();
+            part1();
+        }
+        for (r, &sc) in rhs.iter_mut().zip(&self.scatter) {
+            *r = self.x[sc];
+        }
+    }
+}
+
+/// The factor's structure and values for one solve.
+struct Pass<'a, V> {
+    begin: &'a [usize],
+    xbeg: &'a [usize],
+    val_ptr: &'a [usize],
+    row_ptr: &'a [usize],
+    rows: &'a [usize],
+    own_rows: &'a [usize],
+    values: &'a [V],
+    subdiag: Option<&'a [f64]>,
+    /// The processor has AVX2 (x86-64 only).
+    avx2: bool,
+}
+
+impl<V: Copy + Into<f64>> Pass<'_, V> {
+    /// [`Pass::forward_impl`], compiled for AVX2 where the processor has it (the loops
+    /// convert single-precision values and are otherwise limited to two lanes; no fused
+    /// multiply–add, so the arithmetic and the result are the same as without).
+    fn forward(
+        &self,
+        order: &[usize],
+        x: &mut [f64],
+        off: usize,
+        acc: &mut [f64],
+        top: usize,
+        tmp: &mut [f64],
+    ) {
+        #[cfg(target_arch = "x86_64")]
+        if self.avx2 {
+            // SAFETY: `avx2` is set only where the processor reports AVX2.
+            unsafe { self.forward_avx2(order, x, off, acc, top, tmp) };
+            return;
+        }
+        self.forward_impl(order, x, off, acc, top, tmp)
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn forward_avx2(
+        &self,
+        order: &[usize],
+        x: &mut [f64],
+        off: usize,
+        acc: &mut [f64],
+        top: usize,
+        tmp: &mut [f64],
+    ) {
+        self.forward_impl(order, x, off, acc, top, tmp)
+    }
+
+    /// [`Pass::backward_impl`], compiled for AVX2 where the processor has it (as `forward`).
+    fn backward(
+        &self,
+        order: &[usize],
+        x: &mut [f64],
+        off: usize,
+        x_top: &[f64],
+        top: usize,
+        tmp: &mut [f64],
+    ) {
+        #[cfg(target_arch = "x86_64")]
+        if self.avx2 {
+            // SAFETY: `avx2` is set only where the processor reports AVX2.
+            unsafe { self.backward_avx2(order, x, off, x_top, top, tmp) };
+            return;
+        }
+        self.backward_impl(order, x, off, x_top, top, tmp)
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn backward_avx2(
+        &self,
+        order: &[usize],
+        x: &mut [f64],
+        off: usize,
+        x_top: &[f64],
+        top: usize,
+        tmp: &mut [f64],
+    ) {
+        self.backward_impl(order, x, off, x_top, top, tmp)
+    }
+
+    /// Forward substitution over the supernodes `order` of one part, whose entries are
+    /// `x` (positions from `off`); updates to the top part (positions from `top`) are added
+    /// to `acc`. Per supernode: its unit lower triangle, its rows below (accumulated column
+    /// by column in `tmp`, contiguous in the column-major values, then scattered), then its
+    /// pivots (`D` or `B`), whose entries no later supernode changes; applying them here,
+    /// while the supernode's values are in cache, saves a pass.
+    #[inline(always)]
+    fn forward_impl(
+        &self,
+        order: &[usize],
+        x: &mut [f64],
+        off: usize,
+        acc: &mut [f64],
+        top: usize,
+        tmp: &mut [f64],
+    ) {
+        for &s in order {
+            let (c0, m) = (self.xbeg[s] - off, self.begin[s + 1] - self.begin[s]);
             let rows = &self.rows[self.row_ptr[s]..self.row_ptr[s + 1]];
             let p = rows.len();
             let ld = m + p;
-            let v = &values[self.val_ptr[s]..self.val_ptr[s + 1]];
+            let v = &self.values[self.val_ptr[s]..self.val_ptr[s + 1]];
             let t = &mut tmp[..p];
             t.fill(0.0);
             for j in 0..m {
@@ -516,15 +840,19 @@ impl SupernodalSolve {
                     *ti += l.into() * xj;
                 }
             }
-            for (&r, &ti) in rows.iter().zip(t.iter()) {
-                x[r] -= ti;
+            let own = self.own_rows[s];
+            for (&r, &ti) in rows[..own].iter().zip(&t[..own]) {
+                x[r - off] -= ti;
+            }
+            for (&r, &ti) in rows[own..].iter().zip(&t[own..]) {
+                acc[r - top] += ti;
             }
             // 1x1 pivots, and 2x2 pivots where `subdiag` is nonzero (evaluated as in faer
             // 0.24.4's `solve_in_place_no_numeric_permute_with_conj`).
             let mut j = 0;
             while j < m {
-                let i = c0 + j;
-                let e = subdiag.map_or(0.0, |sd| sd[i]);
+                let (i, col) = (c0 + j, self.begin[s] + j);
+                let e = self.subdiag.map_or(0.0, |sd| sd[col]);
                 if e == 0.0 {
                     x[i] *= v[j * ld + j].into().recip();
                     j += 1;
@@ -541,18 +869,36 @@ impl SupernodalSolve {
                 }
             }
         }
-        // Backward, supernodes in reverse: the rows below (gathered once into `tmp`; they
-        // belong to later supernodes, already final), column by column in storage order, then
-        // the transposed unit triangle from its last column.
-        for s in (0..ns).rev() {
-            let (c0, m) = (self.begin[s], self.begin[s + 1] - self.begin[s]);
+    }
+
+    /// Backward substitution over the supernodes `order` (taken in reverse) of one part with
+    /// entries `x` (positions from `off`), reading the final top entries `x_top` (positions
+    /// from `top`): per supernode, its rows below (gathered once into `tmp`; they belong to
+    /// later supernodes, already final), column by column in storage order, then the
+    /// transposed unit triangle from its last column.
+    #[inline(always)]
+    fn backward_impl(
+        &self,
+        order: &[usize],
+        x: &mut [f64],
+        off: usize,
+        x_top: &[f64],
+        top: usize,
+        tmp: &mut [f64],
+    ) {
+        for &s in order.iter().rev() {
+            let (c0, m) = (self.xbeg[s] - off, self.begin[s + 1] - self.begin[s]);
             let rows = &self.rows[self.row_ptr[s]..self.row_ptr[s + 1]];
             let p = rows.len();
             let ld = m + p;
-            let v = &values[self.val_ptr[s]..self.val_ptr[s + 1]];
+            let v = &self.values[self.val_ptr[s]..self.val_ptr[s + 1]];
             let t = &mut tmp[..p];
-            for (ti, &r) in t.iter_mut().zip(rows) {
-                *ti = x[r];
+            let own = self.own_rows[s];
+            for (ti, &r) in t[..own].iter_mut().zip(&rows[..own]) {
+                *ti = x[r - off];
+            }
+            for (ti, &r) in t[own..].iter_mut().zip(&rows[own..]) {
+                *ti = x_top[r - top];
             }
             for j in 0..m {
                 x[c0 + j] -= dot(&v[j * ld + m..(j + 1) * ld], t);
@@ -566,14 +912,11 @@ impl SupernodalSolve {
                 x[c0 + j] -= acc;
             }
         }
-        for (r, &sc) in rhs.iter_mut().zip(&self.scatter) {
-            *r = x[sc];
-        }
     }
 }
 
 /// Dot product in four independent partial sums (so that it vectorises).
-#[inline]
+#[inline(always)]
 fn dot<V: Copy + Into<f64>>(a: &[V], b: &[f64]) -> f64 {
     let n = a.len().min(b.len());
     let (a4, ar) = a[..n].split_at(n - n % 4);
@@ -737,6 +1080,65 @@ mod tests {
                 "{ordering:?}: the single-precision copy was not used"
             );
             assert!(r <= 1e-4, "{ordering:?}: single precision residual {r:e}");
+        }
+    }
+
+    /// The elimination-tree split gives two parts of nearly equal work with a small top part,
+    /// and running the parts on two threads changes no bit of the solution.
+    #[test]
+    fn tree_split_is_balanced_and_thread_count_independent() {
+        let a = cahn_hilliard_form([40, 40, 1], -2.75);
+        let b = rhs(a.n_rows());
+        for ordering in [Ordering::Amd, Ordering::NestedDissection] {
+            let mut s = FaerLdlt::new(DirectParams::with_ordering(ordering));
+            s.analyze(&a.pattern).unwrap();
+            s.factor(&a).unwrap();
+            let fast = s.fast.as_ref().expect("supernodal");
+            let work = |order: &[usize]| -> f64 {
+                order
+                    .iter()
+                    .map(|&k| {
+                        let m = fast.begin[k + 1] - fast.begin[k];
+                        ((m + fast.row_ptr[k + 1] - fast.row_ptr[k]) * m) as f64
+                    })
+                    .sum()
+            };
+            let [w0, w1, wt] = [0, 1, 2].map(|k| work(&fast.split.order[k]));
+            let total = w0 + w1 + wt;
+            eprintln!(
+                "{ordering:?}: parts {:.3} and {:.3}, top {:.3} of the work",
+                w0 / total,
+                w1 / total,
+                wt / total
+            );
+            assert!(w0 > 0.0 && w1 > 0.0, "{ordering:?}: a part is empty");
+            assert!(
+                (w0 - w1).abs() <= SPLIT_IMBALANCE * (w0 + w1),
+                "{ordering:?}: parts {w0} and {w1}"
+            );
+            assert!(
+                wt <= SPLIT_TOP_SHARE * total,
+                "{ordering:?}: top {wt} of {total}"
+            );
+
+            let mut one = b.to_vec();
+            s.apply_factor(&mut one).unwrap();
+            s.set_solve_parallelism(crate::parallel::Parallelism::Rayon { threads: 2 });
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(2)
+                .build()
+                .unwrap();
+            let mut two = b.to_vec();
+            pool.install(|| s.apply_factor(&mut two)).unwrap();
+            s.set_solve_parallelism(crate::parallel::Parallelism::Sequential);
+            assert!(
+                one.iter()
+                    .zip(&two)
+                    .all(|(p, q)| p.to_bits() == q.to_bits()),
+                "{ordering:?}: one and two threads differ"
+            );
+            let r = residual(&a, &one, &b);
+            assert!(r <= 1e-10, "{ordering:?}: residual {r:e}");
         }
     }
 

@@ -27,6 +27,8 @@
 
 use std::sync::Arc;
 
+use rayon::prelude::*;
+
 use crate::csr::{CsrMatrix, CsrPattern};
 use crate::direct::{check_rhs_len, DirectParams};
 use crate::gmres::gmres_iterate;
@@ -91,8 +93,13 @@ impl RowTransform {
 pub struct SymmetricFormParams {
     /// Fill-reducing ordering of the symmetric factorisation.
     pub ordering: Ordering,
-    /// Threads for factorisations, solves and matrix–vector products.
+    /// Threads for the factorisations (and the LU fallback's solves).
     pub parallelism: Parallelism,
+    /// Threads for the solve phase: GMRES's matrix–vector products and the preconditioner's
+    /// triangular solves (which, with a sequential factorisation, run the two parts of the
+    /// elimination-tree split at once; `FaerLdlt::set_solve_parallelism`). None: as
+    /// `parallelism`. Results do not depend on it.
+    pub solve_parallelism: Option<Parallelism>,
     /// GMRES tolerance (relative, on the equilibrated system), restart and iteration limit.
     pub krylov: KrylovParams,
     /// Keep the factorisation of an earlier `factor` call while the last solve needed at most
@@ -109,6 +116,7 @@ impl Default for SymmetricFormParams {
         SymmetricFormParams {
             ordering: Ordering::Amd,
             parallelism: Parallelism::Sequential,
+            solve_parallelism: None,
             krylov: KrylovParams {
                 rel_tol: 1e-8,
                 abs_tol: 0.0,
@@ -253,6 +261,12 @@ impl SymmetricFormSolver {
         self.stats
     }
 
+    fn solve_parallelism(&self) -> Parallelism {
+        self.params
+            .solve_parallelism
+            .unwrap_or(self.params.parallelism)
+    }
+
     fn direct_params(&self) -> DirectParams {
         DirectParams {
             ordering: self.params.ordering,
@@ -282,6 +296,7 @@ impl SymmetricFormSolver {
             LdltPivoting::Signed(SignedPivots::with_signs(t.signs.clone()))
         };
         let mut ldlt = FaerLdlt::with_pivoting(self.direct_params(), pivots);
+        ldlt.set_solve_parallelism(self.solve_parallelism());
         // Only a preconditioner: GMRES corrects its rounding (FaerLdlt::set_single_precision_solves).
         ldlt.set_single_precision_solves(true);
         ldlt.analyze(&structure.s_pattern)?;
@@ -295,6 +310,7 @@ impl SymmetricFormSolver {
     /// Factor the symmetric part of `T J` (for the `J` stored in `self.jac`) and set `D`.
     fn build_preconditioner(&mut self) -> Result<(), LinalgError> {
         self.preconditioner_ready = false;
+        let par = self.solve_parallelism().is_parallel();
         let (Some(st), Some(t), Some(jac), Some(ldlt)) = (
             self.structure.as_ref(),
             self.transform.as_ref(),
@@ -314,7 +330,7 @@ impl SymmetricFormSolver {
                 s.values[cr] += v;
             }
         }
-        symmetric_equilibrate_into(&mut s, &mut self.d)?;
+        symmetric_equilibrate_into(&mut s, &mut self.d, par)?;
         ldlt.factor(&s)?;
         self.stats.symmetric_factorizations += 1;
         self.preconditioner_ready = true;
@@ -329,8 +345,10 @@ impl SymmetricFormSolver {
         Ok(())
     }
 
-    /// `D T J D` for the current `J` and `D`.
+    /// `D T J D` for the current `J` and `D` (rows in parallel with a threaded solve phase;
+    /// each entry is computed alone, so the result does not depend on it).
     fn build_a_hat(&mut self) {
+        let par = self.solve_parallelism().is_parallel();
         let (Some(st), Some(t), Some(jac)) = (
             self.structure.as_ref(),
             self.transform.as_ref(),
@@ -346,12 +364,13 @@ impl SymmetricFormSolver {
             *a = CsrMatrix::zeros(st.a_pattern.clone());
         }
         let d = &self.d;
-        for r in 0..p.n_rows {
+        for_each_row_mut(p, &mut a.values, par, |r, row| {
             let row_factor = d[r] * t.scale[st.a_row_src[r]];
-            for k in p.row_ptr[r]..p.row_ptr[r + 1] {
-                a.values[k] = row_factor * jac.values[st.a_src[k]] * d[p.col_idx[k]];
+            let start = p.row_ptr[r];
+            for (v, k) in row.iter_mut().zip(start..) {
+                *v = row_factor * jac.values[st.a_src[k]] * d[p.col_idx[k]];
             }
-        }
+        });
     }
 
     fn lu_solve(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
@@ -374,6 +393,7 @@ impl SymmetricFormSolver {
     /// GMRES on `D T J D y = D T b` with the current preconditioner; `rhs` is unchanged on
     /// failure.
     fn gmres_solve(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
+        let solve_par = self.solve_parallelism();
         let (Some(t), Some(a), Some(ldlt)) = (
             self.transform.as_ref(),
             self.a_hat.as_ref(),
@@ -391,13 +411,7 @@ impl SymmetricFormSolver {
             z.copy_from_slice(r);
             ldlt.apply_factor(z)
         };
-        let info = gmres_iterate(
-            a,
-            &mut precondition,
-            &self.params.krylov,
-            self.params.parallelism,
-            &mut y,
-        )?;
+        let info = gmres_iterate(a, &mut precondition, &self.params.krylov, solve_par, &mut y)?;
         for (x, (yi, di)) in rhs.iter_mut().zip(y.iter().zip(d)) {
             *x = yi * di;
         }
@@ -433,7 +447,12 @@ fn missing_factor() -> LinalgError {
 /// Symmetric Ruiz scaling: `d_i ← d_i / sqrt(max_j |d_i s_ij d_j|)` until every row maximum of
 /// `D S D` is within 5 % of one (at most 30 sweeps), then `s := D S D`. Keeps `S` symmetric
 /// (Ruiz, RAL-TR-2001-034, 2001, the symmetric case; from memory). A zero row is singular.
-fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(), LinalgError> {
+/// With `par`, rows are measured and scaled on rayon's threads (row by row, the same values).
+fn symmetric_equilibrate_into(
+    s: &mut CsrMatrix,
+    d: &mut Vec<f64>,
+    par: bool,
+) -> Result<(), LinalgError> {
     const MAX_SWEEPS: usize = 30;
     const TOLERANCE: f64 = 0.05;
     let p = s.pattern.clone();
@@ -443,13 +462,23 @@ fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(),
     let original = s.values.clone();
     let mut row_max = vec![0.0f64; n];
     for _ in 0..MAX_SWEEPS {
-        for (i, m) in row_max.iter_mut().enumerate() {
+        let d_now = &*d;
+        let measure = |(i, m): (usize, &mut f64)| {
             *m = scaled_row_max(
-                d[i],
+                d_now[i],
                 &original[p.row_ptr[i]..p.row_ptr[i + 1]],
                 &p.col_idx[p.row_ptr[i]..p.row_ptr[i + 1]],
-                d,
+                d_now,
             );
+        };
+        if par && n >= PAR_MIN_ROWS {
+            row_max
+                .par_iter_mut()
+                .enumerate()
+                .with_min_len(PAR_MIN_ROWS / 4)
+                .for_each(measure);
+        } else {
+            row_max.iter_mut().enumerate().for_each(measure);
         }
         if let Some(i) = row_max
             .iter()
@@ -464,12 +493,52 @@ fn symmetric_equilibrate_into(s: &mut CsrMatrix, d: &mut Vec<f64>) -> Result<(),
             *di /= m.sqrt();
         }
     }
-    for i in 0..n {
-        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
-            s.values[k] = d[i] * original[k] * d[p.col_idx[k]];
+    let d = &*d;
+    for_each_row_mut(&p, &mut s.values, par, |i, row| {
+        let start = p.row_ptr[i];
+        for (v, k) in row.iter_mut().zip(start..) {
+            *v = d[i] * original[k] * d[p.col_idx[k]];
         }
-    }
+    });
     Ok(())
+}
+
+/// Fewest rows for which the row loops of this module use threads.
+const PAR_MIN_ROWS: usize = 4096;
+
+/// `f(i, values of row i)` for every row of `p`; with `par` (and at least [`PAR_MIN_ROWS`]
+/// rows) over blocks of rows on rayon's threads.
+fn for_each_row_mut(
+    p: &CsrPattern,
+    values: &mut [f64],
+    par: bool,
+    f: impl Fn(usize, &mut [f64]) + Sync,
+) {
+    let n = p.n_rows;
+    if !par || n < PAR_MIN_ROWS {
+        for i in 0..n {
+            f(i, &mut values[p.row_ptr[i]..p.row_ptr[i + 1]]);
+        }
+        return;
+    }
+    const BLOCKS: usize = 64;
+    let per_block = n.div_ceil(BLOCKS);
+    let mut blocks = Vec::with_capacity(BLOCKS);
+    let mut rest = values;
+    let mut taken = p.row_ptr[0];
+    for r0 in (0..n).step_by(per_block) {
+        let r1 = (r0 + per_block).min(n);
+        let (head, tail) = rest.split_at_mut(p.row_ptr[r1] - taken);
+        taken = p.row_ptr[r1];
+        rest = tail;
+        blocks.push((r0..r1, head));
+    }
+    blocks.into_par_iter().for_each(|(rows, block)| {
+        let base = p.row_ptr[rows.start];
+        for i in rows {
+            f(i, &mut block[p.row_ptr[i] - base..p.row_ptr[i + 1] - base]);
+        }
+    });
 }
 
 /// `max_k |d_i a_k d_{col_k}|` over one row (0 for an empty row), in four independent running

@@ -271,6 +271,7 @@ fn names_round_trip_and_every_kind_solves_an_spd_system() {
     let config = SolverConfig {
         krylov: params(1e-10),
         parallelism: Parallelism::Sequential,
+        solve_parallelism: None,
     };
     for kind in SolverKind::all() {
         let name = kind.name();

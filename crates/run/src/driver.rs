@@ -746,16 +746,18 @@ fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver>
     build_solver_with(
         kind,
         SolverConfig {
-            // In 2D the factors are small and their supernodes thin: threads in the
-            // factorisation, the triangular solves and the Krylov products cost more than they
-            // save (measured, docs/performance.md: spinodal benchmark to t = 150, 120 s with a
-            // threaded solver against 60 s with a sequential one and threaded assembly; the
-            // axisymmetric particle 17.5 s against 15.3 s). 3D keeps the threads.
+            // In 2D the factors are small and their supernodes thin: faer's threaded
+            // factorisation and solves cost more than they save (measured, docs/performance.md:
+            // spinodal benchmark to t = 150, 120 s with a threaded solver against 60 s with a
+            // sequential one and threaded assembly; the axisymmetric particle 17.5 s against
+            // 15.3 s). The solve phase of the symmetric form (Dilata's own split triangular
+            // solves and GMRES's products) does use the threads. 3D keeps faer's threads.
             parallelism: if model.mode == GeometryMode::ThreeD {
                 par
             } else {
                 Parallelism::Sequential
             },
+            solve_parallelism: Some(par),
             ..SolverConfig::default()
         },
     )
