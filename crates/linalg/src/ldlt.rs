@@ -663,7 +663,7 @@ impl SupernodalSolve {
     /// `rhs := (P L B Lᵀ Pᵀ)⁻¹ rhs`; `subdiag` holds the 2x2 pivots' off-diagonal entries
     /// (None: a diagonal `D`). With `parallel`, the two parts of the tree split run on two
     /// rayon threads (same result).
-    fn solve<V: Copy + Into<f64> + Sync>(
+    fn solve<V: FactorValue>(
         &mut self,
         values: &[V],
         subdiag: Option<&[f64]>,
@@ -737,7 +737,7 @@ struct Pass<'a, V> {
     avx2: bool,
 }
 
-impl<V: Copy + Into<f64>> Pass<'_, V> {
+impl<V: FactorValue> Pass<'_, V> {
     /// [`Pass::forward_impl`], compiled for AVX2 where the processor has it (the loops
     /// convert single-precision values and are otherwise limited to two lanes; no fused
     /// multiply–add, so the arithmetic and the result are the same as without).
@@ -789,7 +789,7 @@ impl<V: Copy + Into<f64>> Pass<'_, V> {
             unsafe { self.backward_avx2(order, x, off, x_top, top, tmp) };
             return;
         }
-        self.backward_impl(order, x, off, x_top, top, tmp)
+        self.backward_impl::<false>(order, x, off, x_top, top, tmp)
     }
 
     #[cfg(target_arch = "x86_64")]
@@ -803,7 +803,7 @@ impl<V: Copy + Into<f64>> Pass<'_, V> {
         top: usize,
         tmp: &mut [f64],
     ) {
-        self.backward_impl(order, x, off, x_top, top, tmp)
+        self.backward_impl::<true>(order, x, off, x_top, top, tmp)
     }
 
     /// Forward substitution over the supernodes `order` of one part, whose entries are
@@ -877,7 +877,7 @@ impl<V: Copy + Into<f64>> Pass<'_, V> {
     /// later supernodes, already final), column by column in storage order, then the
     /// transposed unit triangle from its last column.
     #[inline(always)]
-    fn backward_impl(
+    fn backward_impl<const AVX2: bool>(
         &self,
         order: &[usize],
         x: &mut [f64],
@@ -901,7 +901,18 @@ impl<V: Copy + Into<f64>> Pass<'_, V> {
                 *ti = x_top[r - top];
             }
             for j in 0..m {
-                x[c0 + j] -= dot(&v[j * ld + m..(j + 1) * ld], t);
+                let lj = &v[j * ld + m..(j + 1) * ld];
+                #[cfg(target_arch = "x86_64")]
+                let d = if AVX2 {
+                    // SAFETY: `AVX2` is true only in `backward_avx2`, called where the
+                    // processor has AVX2.
+                    unsafe { V::dot_avx2(lj, t) }
+                } else {
+                    dot(lj, t)
+                };
+                #[cfg(not(target_arch = "x86_64"))]
+                let d = dot(lj, t);
+                x[c0 + j] -= d;
             }
             for j in (0..m).rev() {
                 let col = &v[j * ld..j * ld + m];
@@ -915,15 +926,17 @@ impl<V: Copy + Into<f64>> Pass<'_, V> {
     }
 }
 
-/// Dot product in four independent partial sums (so that it vectorises).
+/// Dot product in eight independent partial sums (so that it vectorises), combined as
+/// `((s0 + s4) + (s1 + s5)) + ((s2 + s6) + (s3 + s7))`, then the tail: the same operations, in
+/// the same order, as [`FactorValue::dot_avx2`].
 #[inline(always)]
 fn dot<V: Copy + Into<f64>>(a: &[V], b: &[f64]) -> f64 {
     let n = a.len().min(b.len());
-    let (a4, ar) = a[..n].split_at(n - n % 4);
-    let (b4, br) = b[..n].split_at(n - n % 4);
-    let mut s = [0.0; 4];
-    for (ca, cb) in a4.chunks_exact(4).zip(b4.chunks_exact(4)) {
-        for k in 0..4 {
+    let (a8, ar) = a[..n].split_at(n - n % 8);
+    let (b8, br) = b[..n].split_at(n - n % 8);
+    let mut s = [0.0; 8];
+    for (ca, cb) in a8.chunks_exact(8).zip(b8.chunks_exact(8)) {
+        for k in 0..8 {
             s[k] += ca[k].into() * cb[k];
         }
     }
@@ -931,7 +944,94 @@ fn dot<V: Copy + Into<f64>>(a: &[V], b: &[f64]) -> f64 {
     for (x, y) in ar.iter().zip(br) {
         tail += (*x).into() * y;
     }
-    (s[0] + s[1]) + (s[2] + s[3]) + tail
+    combine([s[0] + s[4], s[1] + s[5], s[2] + s[6], s[3] + s[7]], tail)
+}
+
+#[inline(always)]
+fn combine(v: [f64; 4], tail: f64) -> f64 {
+    (v[0] + v[1]) + (v[2] + v[3]) + tail
+}
+
+/// A stored value of the factor: double precision, or its single-precision copy.
+trait FactorValue: Copy + Into<f64> + Sync {
+    /// [`dot`] with AVX2 instructions (two four-lane accumulators, no fused multiply–add: the
+    /// same result).
+    ///
+    /// # Safety
+    /// The processor must have AVX2.
+    #[cfg(target_arch = "x86_64")]
+    unsafe fn dot_avx2(a: &[Self], b: &[f64]) -> f64;
+}
+
+#[cfg(target_arch = "x86_64")]
+#[inline(always)]
+unsafe fn finish_avx2(
+    acc0: std::arch::x86_64::__m256d,
+    acc1: std::arch::x86_64::__m256d,
+    ar: &[impl Copy + Into<f64>],
+    br: &[f64],
+) -> f64 {
+    use std::arch::x86_64::*;
+    let mut v = [0.0f64; 4];
+    // SAFETY: `v` has four entries; AVX2 is required of the caller.
+    unsafe { _mm256_storeu_pd(v.as_mut_ptr(), _mm256_add_pd(acc0, acc1)) };
+    let mut tail = 0.0;
+    for (x, y) in ar.iter().zip(br) {
+        tail += (*x).into() * y;
+    }
+    combine(v, tail)
+}
+
+impl FactorValue for f32 {
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn dot_avx2(a: &[f32], b: &[f64]) -> f64 {
+        use std::arch::x86_64::*;
+        let n = a.len().min(b.len());
+        let full = n - n % 8;
+        let (mut acc0, mut acc1) = (_mm256_setzero_pd(), _mm256_setzero_pd());
+        let mut i = 0;
+        while i < full {
+            // SAFETY: `i + 8 <= full <= n`, within both slices.
+            unsafe {
+                let a0 = _mm256_cvtps_pd(_mm_loadu_ps(a.as_ptr().add(i)));
+                let a1 = _mm256_cvtps_pd(_mm_loadu_ps(a.as_ptr().add(i + 4)));
+                let b0 = _mm256_loadu_pd(b.as_ptr().add(i));
+                let b1 = _mm256_loadu_pd(b.as_ptr().add(i + 4));
+                acc0 = _mm256_add_pd(acc0, _mm256_mul_pd(a0, b0));
+                acc1 = _mm256_add_pd(acc1, _mm256_mul_pd(a1, b1));
+            }
+            i += 8;
+        }
+        // SAFETY: AVX2 is required of the caller.
+        unsafe { finish_avx2(acc0, acc1, &a[full..n], &b[full..n]) }
+    }
+}
+
+impl FactorValue for f64 {
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2")]
+    unsafe fn dot_avx2(a: &[f64], b: &[f64]) -> f64 {
+        use std::arch::x86_64::*;
+        let n = a.len().min(b.len());
+        let full = n - n % 8;
+        let (mut acc0, mut acc1) = (_mm256_setzero_pd(), _mm256_setzero_pd());
+        let mut i = 0;
+        while i < full {
+            // SAFETY: `i + 8 <= full <= n`, within both slices.
+            unsafe {
+                let a0 = _mm256_loadu_pd(a.as_ptr().add(i));
+                let a1 = _mm256_loadu_pd(a.as_ptr().add(i + 4));
+                let b0 = _mm256_loadu_pd(b.as_ptr().add(i));
+                let b1 = _mm256_loadu_pd(b.as_ptr().add(i + 4));
+                acc0 = _mm256_add_pd(acc0, _mm256_mul_pd(a0, b0));
+                acc1 = _mm256_add_pd(acc1, _mm256_mul_pd(a1, b1));
+            }
+            i += 8;
+        }
+        // SAFETY: AVX2 is required of the caller.
+        unsafe { finish_avx2(acc0, acc1, &a[full..n], &b[full..n]) }
+    }
 }
 
 #[cfg(test)]
@@ -1080,6 +1180,30 @@ mod tests {
                 "{ordering:?}: the single-precision copy was not used"
             );
             assert!(r <= 1e-4, "{ordering:?}: single precision residual {r:e}");
+        }
+    }
+
+    /// The AVX2 dot products are the portable ones to the last bit (same operations in the
+    /// same order), for every tail length.
+    #[cfg(target_arch = "x86_64")]
+    #[test]
+    fn avx2_dot_is_the_portable_dot() {
+        if !std::arch::is_x86_feature_detected!("avx2") {
+            eprintln!("no AVX2 on this processor: nothing to compare");
+            return;
+        }
+        for n in 0..40 {
+            let a: Vec<f64> = (0..n)
+                .map(|i| ((i * 7919 % 113) as f64 - 56.0) / 9.7)
+                .collect();
+            let b: Vec<f64> = (0..n)
+                .map(|i| ((i * 104729 % 97) as f64 - 48.0) / 3.1)
+                .collect();
+            let a32: Vec<f32> = a.iter().map(|&v| v as f32).collect();
+            // SAFETY: AVX2 detected above.
+            let (d64, d32) = unsafe { (f64::dot_avx2(&a, &b), f32::dot_avx2(&a32, &b)) };
+            assert_eq!(d64.to_bits(), dot(&a, &b).to_bits(), "f64, n = {n}");
+            assert_eq!(d32.to_bits(), dot(&a32, &b).to_bits(), "f32, n = {n}");
         }
     }
 
