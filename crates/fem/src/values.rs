@@ -210,7 +210,16 @@ impl CellValues {
             self.det[q] = det;
             self.inv_jac[q] = inv;
         }
-        for s in &mut self.spaces {
+        for k in 0..self.spaces.len() {
+            // A space tabulated like an earlier one (several fields of the same order) has
+            // the same physical gradients: copied, not recomputed.
+            let kind = self.spaces[k].table.kind;
+            if let Some(j) = (0..k).find(|&j| self.spaces[j].table.kind == kind) {
+                let (done, rest) = self.spaces.split_at_mut(k);
+                rest[0].grads.copy_from_slice(&done[j].grads);
+                continue;
+            }
+            let s = &mut self.spaces[k];
             let ns = s.table.n_nodes;
             for q in 0..self.rule.points.len() {
                 let inv = &self.inv_jac[q];
