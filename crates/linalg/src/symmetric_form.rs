@@ -109,9 +109,10 @@ pub struct SymmetricFormParams {
 
 impl Default for SymmetricFormParams {
     /// AMD ordering, sequential, GMRES(40) to `1e-8` in at most 80 iterations, preconditioner
-    /// kept while a solve takes at most 6 iterations (measured on the charging-particle
-    /// benchmark, docs/performance.md: a fresh factorisation costs about as much as five GMRES
-    /// iterations there).
+    /// kept while a solve takes at most 12 iterations (measured on the charging-particle
+    /// benchmark, docs/performance.md: with the two-thread solve phase a fresh factorisation
+    /// costs about as much as ten GMRES iterations there; 6, 9, 12, 16 and 24 were compared,
+    /// and on the spinodal benchmark the choice made no difference above the noise).
     fn default() -> Self {
         SymmetricFormParams {
             ordering: Ordering::Amd,
@@ -123,7 +124,7 @@ impl Default for SymmetricFormParams {
                 max_iter: 80,
                 restart: 40,
             },
-            reuse_iterations: 6,
+            reuse_iterations: 12,
         }
     }
 }
