@@ -311,7 +311,7 @@ fn one_and_two_threads_give_identical_files() {
     let n_chunks = model
         .mesh
         .n_cells()
-        .div_ceil(dilata_fem::assembly::CHUNK_CELLS);
+        .div_ceil(dilata_fem::assembly::chunk_cells(model.mesh.n_cells()));
     println!(
         "{} cells, {n_chunks} chunks, {} colours",
         model.mesh.n_cells(),

@@ -243,6 +243,13 @@ fn run_model(
     if let Some(activity) = &summary.solver_activity {
         println!("  {activity}");
     }
+    let (session, assembly) = summary.session_timing;
+    if session > 0.0 {
+        println!(
+            "  assembly (residuals and Jacobians for Newton): {assembly:.2} s of {session:.2} s wall in this session ({:.0} %)",
+            100.0 * assembly / session
+        );
+    }
     println!("  results in {}", out.display());
     println!("{CAUTION}");
     Ok(summary)

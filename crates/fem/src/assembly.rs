@@ -1,6 +1,6 @@
 //! The assembly driver: sparsity pattern, cell colouring, parallel deterministic scatter.
 //!
-//! Cells are grouped into chunks of [`CHUNK_CELLS`] consecutive cells, and the chunks are
+//! Cells are grouped into chunks of consecutive cells ([`chunk_cells`]), and the chunks are
 //! coloured so that no two chunks of one colour share a node, hence no DOF and no matrix entry.
 //! Nodes linked by periodicity (see `DofMap::build_linked`) count as one node here: the
 //! adjacency, the pattern and the colouring are built on master nodes, since two cells on
@@ -104,8 +104,19 @@ pub struct Assembler {
     pattern: Arc<CsrPattern>,
     /// Per colour, the cell ranges (chunks) of that colour.
     colors: Vec<Vec<std::ops::Range<usize>>>,
-    pool: Option<rayon::ThreadPool>,
+    threads: AssemblyThreads,
     parallelism: Parallelism,
+}
+
+/// Where the chunks of a colour run.
+enum AssemblyThreads {
+    /// On the calling thread.
+    Sequential,
+    /// On rayon's global pool (or the pool the caller runs in), which has the requested size:
+    /// the threads the linear solvers use too, so that the two never compete for the cores.
+    Current,
+    /// On a pool of the requested size of its own.
+    Private(rayon::ThreadPool),
 }
 
 impl Assembler {
@@ -115,27 +126,33 @@ impl Assembler {
         let pattern = Arc::new(build_pattern(mesh, dofs, &adjacency));
         let colors = build_colors(mesh, dofs, &adjacency.node_cells);
         // The same `Parallelism` value as the linear solvers: `Sequential` assembles on the
-        // calling thread, `Rayon { threads }` on a private pool of that size (0: all cores).
-        let pool = match parallelism {
-            Parallelism::Sequential => None,
+        // calling thread, `Rayon { threads }` on that many threads (0: all cores): the current
+        // rayon pool (the global one, where the threaded solvers run) when it has that size,
+        // else a private pool. Chunks and colours do not depend on it.
+        let threads = match parallelism {
+            Parallelism::Sequential => AssemblyThreads::Sequential,
             Parallelism::Rayon { threads } => {
                 let n = if threads == 0 {
                     std::thread::available_parallelism().map_or(1, |n| n.get())
                 } else {
                     threads
                 };
-                Some(
-                    rayon::ThreadPoolBuilder::new()
-                        .num_threads(n)
-                        .build()
-                        .expect("cannot start assembly threads"),
-                )
+                if n == rayon::current_num_threads() {
+                    AssemblyThreads::Current
+                } else {
+                    AssemblyThreads::Private(
+                        rayon::ThreadPoolBuilder::new()
+                            .num_threads(n)
+                            .build()
+                            .expect("cannot start assembly threads"),
+                    )
+                }
             }
         };
         Assembler {
             pattern,
             colors,
-            pool,
+            threads,
             parallelism,
         }
     }
@@ -242,17 +259,19 @@ impl Assembler {
                 }
                 Ok(())
             };
-            match &self.pool {
-                None => {
+            let parallel = || {
+                chunks.par_iter().with_min_len(1).try_for_each_init(
+                    || (kernel.build_scratch(), LocalBuffers::new(n_max)),
+                    |s, chunk| work(s, chunk),
+                )
+            };
+            match &self.threads {
+                AssemblyThreads::Sequential => {
                     let mut s = (kernel.build_scratch(), LocalBuffers::new(n_max));
                     chunks.iter().try_for_each(|chunk| work(&mut s, chunk))
                 }
-                Some(pool) => pool.install(|| {
-                    chunks.par_iter().with_min_len(1).try_for_each_init(
-                        || (kernel.build_scratch(), LocalBuffers::new(n_max)),
-                        |s, chunk| work(s, chunk),
-                    )
-                }),
+                AssemblyThreads::Current => parallel(),
+                AssemblyThreads::Private(pool) => pool.install(parallel),
             }
         };
         for chunks in &self.colors {
@@ -602,9 +621,21 @@ fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern 
     }
 }
 
-/// Number of consecutive cells in one assembly chunk. Fixed (not derived from the thread
-/// count) so that the colouring, hence the order of floating-point sums, never depends on it.
+/// Largest number of consecutive cells in one assembly chunk.
 pub const CHUNK_CELLS: usize = 256;
+
+/// Smallest number of cells in one assembly chunk.
+pub const MIN_CHUNK_CELLS: usize = 8;
+
+/// Cells per assembly chunk on a mesh of `n_cells` cells: [`CHUNK_CELLS`] on large meshes, and
+/// on small ones a size that still gives about 64 chunks (at least [`MIN_CHUNK_CELLS`] cells),
+/// so that each colour has enough chunks to keep the threads busy (a mesh of 1 728 cells had
+/// seven chunks of 256, one or two per colour). A function of the mesh only, never of the
+/// thread count, so that the colouring, hence the order of floating-point sums, never depends
+/// on it.
+pub fn chunk_cells(n_cells: usize) -> usize {
+    (n_cells / 64).clamp(MIN_CHUNK_CELLS, CHUNK_CELLS)
+}
 
 /// Greedy colouring of the chunks: no two chunks of one colour share a node (linked nodes
 /// counting as their master). Deterministic (chunk order).
@@ -615,20 +646,21 @@ fn build_colors(
 ) -> Vec<Vec<std::ops::Range<usize>>> {
     let (ptr, cells) = node_cells;
     let n_cells = mesh.n_cells();
-    let n_chunks = n_cells.div_ceil(CHUNK_CELLS);
+    let chunk = chunk_cells(n_cells);
+    let n_chunks = n_cells.div_ceil(chunk);
     let mut color = vec![usize::MAX; n_chunks];
     // forbidden[k] == q marks colour k as taken for chunk q.
     let mut forbidden: Vec<usize> = Vec::new();
     let mut colors: Vec<Vec<std::ops::Range<usize>>> = Vec::new();
     let mut cell_iter = mesh.cells().peekable();
     for q in 0..n_chunks {
-        let range = q * CHUNK_CELLS..((q + 1) * CHUNK_CELLS).min(n_cells);
+        let range = q * chunk..((q + 1) * chunk).min(n_cells);
         while let Some((c, _, nodes)) = cell_iter.next_if(|(c, _, _)| range.contains(c)) {
             debug_assert!(range.contains(&c));
             for &n in nodes {
                 let n = dofs.master_node(n);
                 for &other in &cells[ptr[n]..ptr[n + 1]] {
-                    let k = color[other / CHUNK_CELLS];
+                    let k = color[other / chunk];
                     if k != usize::MAX {
                         forbidden[k] = q;
                     }

@@ -88,6 +88,9 @@ pub struct RunSummary {
     /// the terminal; not written to any result file, since a resumed run counts only its own
     /// session.
     pub solver_activity: Option<String>,
+    /// Wall time of this session and the part of it spent in Newton's assemblies (seconds),
+    /// for the terminal (not written to a result file, as `solver_activity`).
+    pub session_timing: (f64, f64),
     pub steps: usize,
     pub rejected: usize,
     pub wall_seconds: f64,
@@ -652,6 +655,7 @@ pub fn run_with(
         solver_activity: solver
             .activity()
             .map(|a| format!("linear solver {}: {a}", solver.name())),
+        session_timing: (wall.elapsed().as_secs_f64(), problem.assembly_seconds()),
         steps: st.steps,
         rejected: integrator.state.n_rejected,
         wall_seconds: wall_now(),

@@ -111,6 +111,8 @@ pub struct CoupledProblem<'m> {
     /// Per mesh node: whether its `μ` DOF is constrained (rows swapped).
     swapped: Vec<bool>,
     n_swapped: usize,
+    /// Wall time spent in Newton's residual and Jacobian assemblies so far.
+    assembly_seconds: f64,
 }
 
 impl<'m> CoupledProblem<'m> {
@@ -124,6 +126,13 @@ impl<'m> CoupledProblem<'m> {
             laws: &self.laws,
             solution,
         }
+    }
+
+    /// Wall time spent so far in the residual and Jacobian assemblies that Newton asked for
+    /// (`DiscreteSystem::assemble_into` and `residual_into`; post-processing passes are not
+    /// counted).
+    pub fn assembly_seconds(&self) -> f64 {
+        self.assembly_seconds
     }
 
     /// Build the assembler (pattern, colouring) for `dofs`, which must hold the three fields.
@@ -157,6 +166,7 @@ impl<'m> CoupledProblem<'m> {
             zero_increments: Vec::new(),
             swapped: vec![false; mesh.n_points()],
             n_swapped: 0,
+            assembly_seconds: 0.0,
         }
     }
 
@@ -411,11 +421,17 @@ impl DiscreteSystem for CoupledProblem<'_> {
         jacobian: &mut CsrMatrix,
         residual: &mut [f64],
     ) -> Result<(), CoupledError> {
-        self.assemble(x, Some(jacobian), residual, true)
+        let start = std::time::Instant::now();
+        let result = self.assemble(x, Some(jacobian), residual, true);
+        self.assembly_seconds += start.elapsed().as_secs_f64();
+        result
     }
 
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), CoupledError> {
-        self.assemble(x, None, residual, true)
+        let start = std::time::Instant::now();
+        let result = self.assemble(x, None, residual, true);
+        self.assembly_seconds += start.elapsed().as_secs_f64();
+        result
     }
 
     /// Floors of the step test: the body's size for displacements (a correction of 1e-12 of the
