@@ -963,23 +963,40 @@ trait FactorValue: Copy + Into<f64> + Sync {
     unsafe fn dot_avx2(a: &[Self], b: &[f64]) -> f64;
 }
 
+/// The loop of [`FactorValue::dot_avx2`] for any value type: `load(i)` gives `a[i..i + 4]` in
+/// double precision.
+///
+/// # Safety
+/// The processor must have AVX2, and `load(i)` must be valid for `i + 4 <= a.len()`.
 #[cfg(target_arch = "x86_64")]
 #[inline(always)]
-unsafe fn finish_avx2(
-    acc0: std::arch::x86_64::__m256d,
-    acc1: std::arch::x86_64::__m256d,
-    ar: &[impl Copy + Into<f64>],
-    br: &[f64],
+unsafe fn dot_avx2_with<V: Copy + Into<f64>>(
+    a: &[V],
+    b: &[f64],
+    load: impl Fn(usize) -> std::arch::x86_64::__m256d,
 ) -> f64 {
     use std::arch::x86_64::*;
-    let mut v = [0.0f64; 4];
-    // SAFETY: `v` has four entries; AVX2 is required of the caller.
-    unsafe { _mm256_storeu_pd(v.as_mut_ptr(), _mm256_add_pd(acc0, acc1)) };
-    let mut tail = 0.0;
-    for (x, y) in ar.iter().zip(br) {
-        tail += (*x).into() * y;
+    let n = a.len().min(b.len());
+    let full = n - n % 8;
+    // SAFETY: AVX2 is required of the caller; `i + 8 <= full <= n` bounds every load.
+    unsafe {
+        let (mut acc0, mut acc1) = (_mm256_setzero_pd(), _mm256_setzero_pd());
+        let mut i = 0;
+        while i < full {
+            let b0 = _mm256_loadu_pd(b.as_ptr().add(i));
+            let b1 = _mm256_loadu_pd(b.as_ptr().add(i + 4));
+            acc0 = _mm256_add_pd(acc0, _mm256_mul_pd(load(i), b0));
+            acc1 = _mm256_add_pd(acc1, _mm256_mul_pd(load(i + 4), b1));
+            i += 8;
+        }
+        let mut v = [0.0f64; 4];
+        _mm256_storeu_pd(v.as_mut_ptr(), _mm256_add_pd(acc0, acc1));
+        let mut tail = 0.0;
+        for (x, y) in a[full..n].iter().zip(&b[full..n]) {
+            tail += (*x).into() * y;
+        }
+        combine(v, tail)
     }
-    combine(v, tail)
 }
 
 impl FactorValue for f32 {
@@ -987,24 +1004,8 @@ impl FactorValue for f32 {
     #[target_feature(enable = "avx2")]
     unsafe fn dot_avx2(a: &[f32], b: &[f64]) -> f64 {
         use std::arch::x86_64::*;
-        let n = a.len().min(b.len());
-        let full = n - n % 8;
-        let (mut acc0, mut acc1) = (_mm256_setzero_pd(), _mm256_setzero_pd());
-        let mut i = 0;
-        while i < full {
-            // SAFETY: `i + 8 <= full <= n`, within both slices.
-            unsafe {
-                let a0 = _mm256_cvtps_pd(_mm_loadu_ps(a.as_ptr().add(i)));
-                let a1 = _mm256_cvtps_pd(_mm_loadu_ps(a.as_ptr().add(i + 4)));
-                let b0 = _mm256_loadu_pd(b.as_ptr().add(i));
-                let b1 = _mm256_loadu_pd(b.as_ptr().add(i + 4));
-                acc0 = _mm256_add_pd(acc0, _mm256_mul_pd(a0, b0));
-                acc1 = _mm256_add_pd(acc1, _mm256_mul_pd(a1, b1));
-            }
-            i += 8;
-        }
-        // SAFETY: AVX2 is required of the caller.
-        unsafe { finish_avx2(acc0, acc1, &a[full..n], &b[full..n]) }
+        // SAFETY: AVX2 is required of the caller; the loop only loads within `a`.
+        unsafe { dot_avx2_with(a, b, |i| _mm256_cvtps_pd(_mm_loadu_ps(a.as_ptr().add(i)))) }
     }
 }
 
@@ -1013,24 +1014,8 @@ impl FactorValue for f64 {
     #[target_feature(enable = "avx2")]
     unsafe fn dot_avx2(a: &[f64], b: &[f64]) -> f64 {
         use std::arch::x86_64::*;
-        let n = a.len().min(b.len());
-        let full = n - n % 8;
-        let (mut acc0, mut acc1) = (_mm256_setzero_pd(), _mm256_setzero_pd());
-        let mut i = 0;
-        while i < full {
-            // SAFETY: `i + 8 <= full <= n`, within both slices.
-            unsafe {
-                let a0 = _mm256_loadu_pd(a.as_ptr().add(i));
-                let a1 = _mm256_loadu_pd(a.as_ptr().add(i + 4));
-                let b0 = _mm256_loadu_pd(b.as_ptr().add(i));
-                let b1 = _mm256_loadu_pd(b.as_ptr().add(i + 4));
-                acc0 = _mm256_add_pd(acc0, _mm256_mul_pd(a0, b0));
-                acc1 = _mm256_add_pd(acc1, _mm256_mul_pd(a1, b1));
-            }
-            i += 8;
-        }
-        // SAFETY: AVX2 is required of the caller.
-        unsafe { finish_avx2(acc0, acc1, &a[full..n], &b[full..n]) }
+        // SAFETY: AVX2 is required of the caller; the loop only loads within `a`.
+        unsafe { dot_avx2_with(a, b, |i| _mm256_loadu_pd(a.as_ptr().add(i))) }
     }
 }
 
