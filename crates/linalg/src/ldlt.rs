@@ -753,23 +753,8 @@ impl<V: FactorValue> Pass<'_, V> {
         #[cfg(target_arch = "x86_64")]
         if self.avx2 {
             // SAFETY: `avx2` is set only where the processor reports AVX2.
-            unsafe { self.forward_avx2(order, x, off, acc, top, tmp) };
-            return;
+            return unsafe { with_avx2(|| self.forward_impl(order, x, off, acc, top, tmp)) };
         }
-        self.forward_impl(order, x, off, acc, top, tmp)
-    }
-
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    unsafe fn forward_avx2(
-        &self,
-        order: &[usize],
-        x: &mut [f64],
-        off: usize,
-        acc: &mut [f64],
-        top: usize,
-        tmp: &mut [f64],
-    ) {
         self.forward_impl(order, x, off, acc, top, tmp)
     }
 
@@ -786,24 +771,11 @@ impl<V: FactorValue> Pass<'_, V> {
         #[cfg(target_arch = "x86_64")]
         if self.avx2 {
             // SAFETY: `avx2` is set only where the processor reports AVX2.
-            unsafe { self.backward_avx2(order, x, off, x_top, top, tmp) };
-            return;
+            return unsafe {
+                with_avx2(|| self.backward_impl::<true>(order, x, off, x_top, top, tmp))
+            };
         }
         self.backward_impl::<false>(order, x, off, x_top, top, tmp)
-    }
-
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    unsafe fn backward_avx2(
-        &self,
-        order: &[usize],
-        x: &mut [f64],
-        off: usize,
-        x_top: &[f64],
-        top: usize,
-        tmp: &mut [f64],
-    ) {
-        self.backward_impl::<true>(order, x, off, x_top, top, tmp)
     }
 
     /// Forward substitution over the supernodes `order` of one part, whose entries are
@@ -904,7 +876,7 @@ impl<V: FactorValue> Pass<'_, V> {
                 let lj = &v[j * ld + m..(j + 1) * ld];
                 #[cfg(target_arch = "x86_64")]
                 let d = if AVX2 {
-                    // SAFETY: `AVX2` is true only in `backward_avx2`, called where the
+                    // SAFETY: `AVX2` is true only inside `with_avx2`, called where the
                     // processor has AVX2.
                     unsafe { V::dot_avx2(lj, t) }
                 } else {
@@ -950,6 +922,16 @@ fn dot<V: Copy + Into<f64>>(a: &[V], b: &[f64]) -> f64 {
 #[inline(always)]
 fn combine(v: [f64; 4], tail: f64) -> f64 {
     (v[0] + v[1]) + (v[2] + v[3]) + tail
+}
+
+/// Run `f` with AVX2 code generation (`f` is inlined here, so its loops are compiled for it).
+///
+/// # Safety
+/// The processor must have AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn with_avx2<R>(f: impl FnOnce() -> R) -> R {
+    f()
 }
 
 /// A stored value of the factor: double precision, or its single-precision copy.
