@@ -486,6 +486,8 @@ unsafe fn scatter_local(
     buf.order.clear();
     buf.order.extend(0..n);
     buf.order.sort_unstable_by_key(|&a| dofs[a]);
+    // Most cells have no constrained DOF: then the per-entry tests below have nothing to find.
+    let constraints = constraints.filter(|(cons, _)| dofs.iter().any(|&d| cons.is_constrained(d)));
     for a in 0..n {
         let i = dofs[a];
         if let Some((cons, _)) = constraints {

@@ -323,17 +323,20 @@ impl ScalarRows<'_> {
         let gm = self.sm.grads(self.q);
         let w = self.w;
         for a in 0..vc.len() {
-            let row = self.rc.start + a;
+            let row = &mut ke[at(self.rc.start + a, 0)..at(self.rc.start + a + 1, 0)];
             let g = Vector3::new(gc[a][0], gc[a][1], gc[a][2]);
             let gdj_dc = g.dot(&t.dflux_dc);
-            for b in 0..vc.len() {
-                ke[at(row, self.rc.start + b)] += (vc[a] * self.a0 * vc[b] - gdj_dc * vc[b]) * w;
+            let va0 = vc[a] * self.a0;
+            let cols = &mut row[self.rc.start..self.rc.start + vc.len()];
+            for (k, &vb) in cols.iter_mut().zip(vc) {
+                *k += (va0 * vb - gdj_dc * vb) * w;
             }
             // −grad N_a · dJ/d(grad μ) · grad N_b
             let gm_t = t.dflux_dgrad_mu.transpose() * g;
-            for b in 0..gm.len() {
-                let v = -(gm_t[0] * gm[b][0] + gm_t[1] * gm[b][1] + gm_t[2] * gm[b][2]);
-                ke[at(row, self.rm.start + b)] += v * w;
+            let cols = &mut row[self.rm.start..self.rm.start + gm.len()];
+            for (k, gb) in cols.iter_mut().zip(gm) {
+                let v = -(gm_t[0] * gb[0] + gm_t[1] * gb[1] + gm_t[2] * gb[2]);
+                *k += v * w;
             }
         }
         if with_gradient {
@@ -527,26 +530,33 @@ impl CellKernel for CoupledKernel<'_> {
                     for i in 0..nc {
                         let row = ru.start + a * nc + i;
                         let bdc: f64 = (0..nk).map(|k| ba[k][i] * p.dstress_dc[k]).sum();
-                        for b in 0..ncn {
-                            ke[at(row, rc.start + b)] += bdc * vc[b] * w;
+                        let cols = &mut ke[at(row, rc.start)..at(row, rc.start + ncn)];
+                        for (k, &vb) in cols.iter_mut().zip(vc) {
+                            *k += bdc * vb * w;
                         }
                     }
                 }
                 // Mass rows, and the gradient part of the potential rows.
                 rows.tangent(ke, &terms, has_gradient);
                 // Potential rows.
+                // (Row slices, with the products in the order of the formulas.)
                 for a in 0..nmn {
-                    let row = rm.start + a;
-                    for (b, mub) in mub_all.iter().enumerate() {
-                        for j in 0..nc {
-                            ke[at(row, ru.start + b * nc + j)] -= vm[a] * mub[j] * w;
+                    let row = &mut ke[at(rm.start + a, 0)..at(rm.start + a + 1, 0)];
+                    let va = vm[a];
+                    if nc > 0 {
+                        let cols = &mut row[ru.start..ru.start + mub_all.len() * nc];
+                        for (k, mub) in cols.chunks_exact_mut(nc).zip(mub_all.iter()) {
+                            for j in 0..nc {
+                                k[j] -= va * mub[j] * w;
+                            }
                         }
                     }
-                    for b in 0..ncn {
-                        ke[at(row, rc.start + b)] -= vm[a] * p.dmu_dc * vc[b] * w;
+                    let vd = va * p.dmu_dc;
+                    for (k, &vb) in row[rc.start..rc.start + ncn].iter_mut().zip(vc) {
+                        *k -= vd * vb * w;
                     }
-                    for b in 0..nmn {
-                        ke[at(row, rm.start + b)] += vm[a] * vm[b] * w;
+                    for (k, &vb) in row[rm.start..rm.start + nmn].iter_mut().zip(vm) {
+                        *k += va * vb * w;
                     }
                 }
             }
