@@ -90,7 +90,9 @@ pub(crate) fn gmres_iterate(
 
     // Krylov basis V (m + 1 vectors), Hessenberg H stored by columns (column j has j + 2
     // entries), rotations (c, s), and the rotated right-hand side g.
-    let mut v: Vec<Vec<f64>> = (0..=m).map(|_| vec![0.0; n]).collect();
+    // Allocated as the cycle grows, like `zs` below: a solve that converges in a few iterations
+    // should not pay for zeroing `m + 1` vectors it never uses.
+    let mut v: Vec<Vec<f64>> = vec![vec![0.0; n]];
     // The preconditioned basis `z_k = M v_k`, kept so that the update `x += M V y` is
     // `x += Z y` without another application of `M` (as flexible GMRES keeps it, Saad 2003,
     // sec. 9.4.1; for a fixed `M` the same iterate). Allocated as the cycle grows.
@@ -145,6 +147,9 @@ pub(crate) fn gmres_iterate(
             let h_next = norm(&w);
             h[k][k + 1] = h_next;
             if h_next > 0.0 {
+                if v.len() <= k + 1 {
+                    v.push(vec![0.0; n]);
+                }
                 for (vj, wj) in v[k + 1].iter_mut().zip(&w) {
                     *vj = wj / h_next;
                 }
