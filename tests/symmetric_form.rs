@@ -201,36 +201,42 @@ fn concentration_dependent_mobility_breaks_the_symmetry() {
     assert!(asym > 1e-6, "asymmetry only {asym:e}");
 }
 
+/// Steps of the dilute problem to t = 0.2 with `solver`: the state, fields and DOF map.
+fn run_steps(
+    mesh: &Mesh,
+    solver: &mut dyn LinearSolver,
+) -> (Vec<f64>, CoupledFields, dilata_fem::dofs::DofMap) {
+    let mut p = problem(mesh, false, true);
+    solver.analyze(p.assembler.pattern()).unwrap();
+    let mut x0 = vec![0.0; p.dofs.n_dofs()];
+    for node in p.dofs.field_nodes(p.fields.c) {
+        x0[p.dofs.node_dof(p.fields.c, node, 0).unwrap()] = C0;
+    }
+    let params = IntegratorParams {
+        scheme: Scheme::Bdf2,
+        sizing: StepSizing::Fixed { dt: 0.05 },
+        newton: NewtonParams {
+            abs_tol: 0.0,
+            rel_tol: 1e-10,
+            step_tol: 1e-10,
+            max_iterations: 15,
+            max_backtracks: 4,
+        },
+        cut_factor: 0.5,
+        dt_min: 1e-6,
+        energy: None,
+    };
+    let mut integ = Integrator::new(params, 0.0, x0);
+    integ.step(&mut p, solver, 0.2).unwrap();
+    (integ.state.x, p.fields, p.dofs.clone())
+}
+
 /// Four backward-Euler steps with the symmetric-form solver and with the sparse LU give the
 /// same states, to the GMRES tolerance (1e-8 relative) amplified by the conditioning.
 #[test]
 fn time_steps_match_the_lu_solution() {
     let mesh = mesh();
-    let run = |solver: &mut dyn LinearSolver| {
-        let mut p = problem(&mesh, false, true);
-        solver.analyze(p.assembler.pattern()).unwrap();
-        let mut x0 = vec![0.0; p.dofs.n_dofs()];
-        for node in p.dofs.field_nodes(p.fields.c) {
-            x0[p.dofs.node_dof(p.fields.c, node, 0).unwrap()] = C0;
-        }
-        let params = IntegratorParams {
-            scheme: Scheme::Bdf2,
-            sizing: StepSizing::Fixed { dt: 0.05 },
-            newton: NewtonParams {
-                abs_tol: 0.0,
-                rel_tol: 1e-10,
-                step_tol: 1e-10,
-                max_iterations: 15,
-                max_backtracks: 4,
-            },
-            cut_factor: 0.5,
-            dt_min: 1e-6,
-            energy: None,
-        };
-        let mut integ = Integrator::new(params, 0.0, x0);
-        integ.step(&mut p, solver, 0.2).unwrap();
-        (integ.state.x, p.fields, p.dofs.clone())
-    };
+    let run = |solver: &mut dyn LinearSolver| run_steps(&mesh, solver);
     let mut lu = FaerLu::new(DirectParams::with_ordering(Ordering::Amd));
     let (x_lu, fields, dofs) = run(&mut lu);
     let mut sym = SymmetricFormSolver::new(SymmetricFormParams::default());
@@ -253,4 +259,54 @@ fn time_steps_match_the_lu_solution() {
             "field {f:?}: difference {diff:e} against magnitude {scale:e}"
         );
     }
+}
+
+/// With `follow_requested_reduction` the solver stops GMRES at the reduction Newton asks for
+/// (Eisenstat and Walker, SIAM J. Sci. Comput. 17 (1996) 16, choice 2, from memory): the
+/// states still match the LU's to the same bound as the exact solves (Newton's test is on the
+/// true residual), with fewer GMRES iterations. Off (the default), the request is ignored and
+/// the run is the same to the last bit as one that never heard of it.
+#[test]
+fn inexact_newton_keeps_the_answer_with_fewer_gmres_iterations() {
+    let mesh = mesh();
+    let mut lu = FaerLu::new(DirectParams::with_ordering(Ordering::Amd));
+    let (x_lu, fields, dofs) = run_steps(&mesh, &mut lu);
+    let mut exact = SymmetricFormSolver::new(SymmetricFormParams::default());
+    let (x_exact, _, _) = run_steps(&mesh, &mut exact);
+    let mut inexact = SymmetricFormSolver::new(SymmetricFormParams {
+        follow_requested_reduction: true,
+        ..SymmetricFormParams::default()
+    });
+    let (x_inexact, _, _) = run_steps(&mesh, &mut inexact);
+    let (se, si) = (exact.stats(), inexact.stats());
+    eprintln!("exact solves: {se:?}\ninexact solves: {si:?}");
+    assert!(
+        si.gmres_iterations < se.gmres_iterations,
+        "inexact {} against exact {} GMRES iterations",
+        si.gmres_iterations,
+        se.gmres_iterations
+    );
+    for f in [fields.u, fields.c, fields.mu] {
+        let range = dofs.field_range(f);
+        let scale = x_lu[range.clone()]
+            .iter()
+            .fold(0.0f64, |m, v| m.max(v.abs()));
+        let diff = range
+            .map(|i| (x_lu[i] - x_inexact[i]).abs())
+            .fold(0.0f64, f64::max);
+        eprintln!("field {f:?}: |x_lu - x_inexact| {diff:e}, magnitude {scale:e}");
+        assert!(
+            diff <= 1e-7 * scale,
+            "field {f:?}: difference {diff:e} against magnitude {scale:e}"
+        );
+    }
+    // A request the solver does not follow changes nothing.
+    let mut ignoring = SymmetricFormSolver::new(SymmetricFormParams::default());
+    ignoring.set_requested_reduction(Some(0.1));
+    let (x_ignoring, _, _) = run_steps(&mesh, &mut ignoring);
+    assert!(x_ignoring
+        .iter()
+        .zip(&x_exact)
+        .all(|(a, b)| a.to_bits() == b.to_bits()));
+    assert_eq!(ignoring.stats().gmres_iterations, se.gmres_iterations);
 }

@@ -123,6 +123,9 @@ pub struct SolverConfig {
     /// Threads for the solve phase of the symmetric-form solver when they differ from
     /// `parallelism` (see `SymmetricFormParams::solve_parallelism`); None: the same.
     pub solve_parallelism: Option<Parallelism>,
+    /// Let the symmetric-form solver stop its GMRES at the reduction an inexact Newton method
+    /// asks for (see `SymmetricFormParams::follow_requested_reduction`). Default off.
+    pub inexact_newton: bool,
 }
 
 /// Build a solver with default settings (sequential, [`KrylovParams::default`]).
@@ -148,6 +151,7 @@ pub fn build_solver_with(kind: SolverKind, config: SolverConfig) -> Box<dyn Line
                 ordering,
                 parallelism: config.parallelism,
                 solve_parallelism: config.solve_parallelism,
+                follow_requested_reduction: config.inexact_newton,
                 ..SymmetricFormParams::default()
             }))
         }

@@ -48,6 +48,11 @@ pub trait LinearSolver: Send {
     fn set_row_transform(&mut self, _transform: RowTransform) -> Result<(), LinalgError> {
         Ok(())
     }
+    /// The relative reduction of the residual `|b - Ax| / |b|` that the next solves need, as
+    /// an inexact Newton method asks for it (its forcing term); `None` asks for the solver's own
+    /// tolerance again. Iterative solvers may stop there instead of at their own, tighter,
+    /// tolerance, never earlier; direct solvers solve exactly and ignore it (the default).
+    fn set_requested_reduction(&mut self, _reduction: Option<f64>) {}
     /// A short human-readable name ("faer-cholesky/metis").
     fn name(&self) -> String;
     /// One line on what the solver did so far (factorisations, iterations, fallbacks), for run

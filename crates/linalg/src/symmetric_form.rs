@@ -105,6 +105,11 @@ pub struct SymmetricFormParams {
     /// Keep the factorisation of an earlier `factor` call while the last solve needed at most
     /// this many GMRES iterations (0: factor on every call).
     pub reuse_iterations: usize,
+    /// Stop GMRES at the reduction asked for through [`LinearSolver::set_requested_reduction`]
+    /// (an inexact Newton method's forcing term, never looser than `MAX_REQUESTED_REDUCTION`)
+    /// instead of always at `krylov.rel_tol`. Off by default: the request is ignored and every
+    /// solve is as tight as `krylov.rel_tol`.
+    pub follow_requested_reduction: bool,
 }
 
 impl Default for SymmetricFormParams {
@@ -125,7 +130,27 @@ impl Default for SymmetricFormParams {
                 restart: 40,
             },
             reuse_iterations: 12,
+            follow_requested_reduction: false,
         }
+    }
+}
+
+/// The loosest reduction a solve accepts from [`LinearSolver::set_requested_reduction`]: a
+/// Newton correction from a solve that reduced the residual by less than this would hardly be
+/// a Newton step any more.
+const MAX_REQUESTED_REDUCTION: f64 = 0.1;
+
+/// The GMRES iterations a solve would have needed for the reduction `full_tol`, from the
+/// iterations it took and the reduction it reached (assuming the same reduction per iteration,
+/// rounded up): a solve asked for less ends after fewer iterations with the same
+/// preconditioner, and the reuse test must not read that as a better preconditioner.
+fn equivalent_iterations(info: &SolveInfo, full_tol: f64) -> usize {
+    match info.residual {
+        Some(r) if r > full_tol && r < 1.0 && info.iterations > 0 => {
+            let scaled = info.iterations as f64 * full_tol.ln() / r.ln();
+            scaled.ceil() as usize
+        }
+        _ => info.iterations,
     }
 }
 
@@ -142,6 +167,10 @@ pub struct SymmetricFormStats {
     pub gmres_iterations: usize,
     /// Solves done by the LU fallback.
     pub lu_solves: usize,
+    /// Wall time spent in `factor` (symmetric factorisations, the equilibrated matrix for
+    /// GMRES, copies) and in `solve_in_place` (GMRES with its preconditioner, LU fallbacks).
+    pub factor_time: std::time::Duration,
+    pub solve_time: std::time::Duration,
 }
 
 /// Index structure for one transform permutation on one pattern.
@@ -222,7 +251,12 @@ pub struct SymmetricFormSolver {
     preconditioner_ready: bool,
     /// Whether the factorisation was built from the current `J`.
     preconditioner_fresh: bool,
+    /// GMRES iterations of the last solve, scaled to the full tolerance `krylov.rel_tol` when
+    /// that solve was asked for less (see [`equivalent_iterations`]): what the reuse test of
+    /// `factor` compares with `reuse_iterations`.
     last_iterations: usize,
+    /// The reduction asked for by [`LinearSolver::set_requested_reduction`], if any.
+    requested: Option<f64>,
     /// `D T J D` on `A`'s pattern, for the current `J`.
     a_hat: Option<CsrMatrix>,
     /// The current `J`, for the LU fallback and for refreshing the preconditioner.
@@ -248,6 +282,7 @@ impl SymmetricFormSolver {
             preconditioner_ready: false,
             preconditioner_fresh: false,
             last_iterations: 0,
+            requested: None,
             a_hat: None,
             jac: None,
             lu: None,
@@ -412,7 +447,11 @@ impl SymmetricFormSolver {
             z.copy_from_slice(r);
             ldlt.apply_factor(z)
         };
-        let info = gmres_iterate(a, &mut precondition, &self.params.krylov, solve_par, &mut y)?;
+        let mut krylov = self.params.krylov;
+        if let Some(r) = self.requested {
+            krylov.rel_tol = r.clamp(krylov.rel_tol, MAX_REQUESTED_REDUCTION);
+        }
+        let info = gmres_iterate(a, &mut precondition, &krylov, solve_par, &mut y)?;
         for (x, (yi, di)) in rhs.iter_mut().zip(y.iter().zip(d)) {
             *x = yi * di;
         }
@@ -428,7 +467,7 @@ impl SymmetricFormSolver {
         match self.gmres_solve(rhs) {
             Ok(info) => {
                 self.stats.gmres_iterations += info.iterations;
-                self.last_iterations = info.iterations;
+                self.last_iterations = equivalent_iterations(&info, self.params.krylov.rel_tol);
                 Ok(Some(info))
             }
             Err(LinalgError::NotConverged { iterations, .. }) => {
@@ -661,6 +700,44 @@ impl LinearSolver for SymmetricFormSolver {
     }
 
     fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
+        let start = std::time::Instant::now();
+        let result = self.factor_timed(matrix);
+        self.stats.factor_time += start.elapsed();
+        result
+    }
+
+    fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
+        let start = std::time::Instant::now();
+        let result = self.solve_timed(rhs);
+        self.stats.solve_time += start.elapsed();
+        result
+    }
+
+    fn set_requested_reduction(&mut self, reduction: Option<f64>) {
+        self.requested = reduction.filter(|_| self.params.follow_requested_reduction);
+    }
+
+    fn name(&self) -> String {
+        format!("gmres/symmetric-ldlt/{}", self.params.ordering.name())
+    }
+
+    fn activity(&self) -> Option<String> {
+        let s = self.stats;
+        Some(format!(
+            "{} matrices, {} symmetric factorisations, {} solves with {} GMRES iterations, {} solves by the LU fallback; {:.2} s in factor, {:.2} s in solve",
+            s.factor_calls,
+            s.symmetric_factorizations,
+            s.solves,
+            s.gmres_iterations,
+            s.lu_solves,
+            s.factor_time.as_secs_f64(),
+            s.solve_time.as_secs_f64()
+        ))
+    }
+}
+
+impl SymmetricFormSolver {
+    fn factor_timed(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
         self.stats.factor_calls += 1;
         let pattern = self
             .pattern
@@ -696,7 +773,7 @@ impl LinearSolver for SymmetricFormSolver {
         Ok(())
     }
 
-    fn solve_in_place(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
+    fn solve_timed(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
         let n = self.pattern.as_ref().ok_or_else(missing_factor)?.n_rows;
         check_rhs_len(n, rhs)?;
         self.stats.solves += 1;
@@ -714,17 +791,5 @@ impl LinearSolver for SymmetricFormSolver {
             }
         }
         self.lu_solve(rhs)
-    }
-
-    fn name(&self) -> String {
-        format!("gmres/symmetric-ldlt/{}", self.params.ordering.name())
-    }
-
-    fn activity(&self) -> Option<String> {
-        let s = self.stats;
-        Some(format!(
-            "{} matrices, {} symmetric factorisations, {} solves with {} GMRES iterations, {} solves by the LU fallback",
-            s.factor_calls, s.symmetric_factorizations, s.solves, s.gmres_iterations, s.lu_solves
-        ))
     }
 }

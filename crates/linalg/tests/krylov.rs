@@ -272,6 +272,7 @@ fn names_round_trip_and_every_kind_solves_an_spd_system() {
         krylov: params(1e-10),
         parallelism: Parallelism::Sequential,
         solve_parallelism: None,
+        inexact_newton: false,
     };
     for kind in SolverKind::all() {
         let name = kind.name();

@@ -762,6 +762,7 @@ fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver>
                 Parallelism::Sequential
             },
             solve_parallelism: Some(par),
+            inexact_newton: model.scenario.solver.inexact_newton,
             ..SolverConfig::default()
         },
     )

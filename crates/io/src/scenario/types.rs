@@ -590,4 +590,8 @@ pub struct SolverSpec {
     pub max_iterations: Option<usize>,
     #[serde(default)]
     pub linear: LinearSolverName,
+    /// Let GMRES stop at the reduction Newton needs (Eisenstat–Walker forcing) instead of
+    /// always at its own tight tolerance; used by the `"symmetric"` solver only.
+    #[serde(default)]
+    pub inexact_newton: bool,
 }
