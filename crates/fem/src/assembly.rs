@@ -157,6 +157,29 @@ impl Assembler {
         }
     }
 
+    /// `f` over consecutive chunks of `0..n` (`chunk` items each, the last one shorter) on the
+    /// assembler's threads, the same ones its assembly uses; the results come back in chunk
+    /// order, so a caller that folds them in that order gets the same bits for any number of
+    /// threads. For cell loops other than assembly (post-processing, energies).
+    pub fn map_chunks<T, F>(&self, n: usize, chunk: usize, f: F) -> Vec<T>
+    where
+        T: Send,
+        F: Fn(std::ops::Range<usize>) -> T + Sync + Send,
+    {
+        let chunk = chunk.max(1);
+        let ranges: Vec<std::ops::Range<usize>> = (0..n)
+            .step_by(chunk)
+            .map(|s| s..(s + chunk).min(n))
+            .collect();
+        match &self.threads {
+            AssemblyThreads::Sequential => ranges.into_iter().map(f).collect(),
+            AssemblyThreads::Current => ranges.par_iter().map(|r| f(r.clone())).collect(),
+            AssemblyThreads::Private(pool) => {
+                pool.install(|| ranges.par_iter().map(|r| f(r.clone())).collect())
+            }
+        }
+    }
+
     pub fn pattern(&self) -> &Arc<CsrPattern> {
         &self.pattern
     }

@@ -25,6 +25,7 @@
 //! # Ok(()) }
 //! ```
 
+use dilata_fem::assembly::Assembler;
 use dilata_fem::dofs::DofMap;
 use dilata_fem::values::space_kind;
 use dilata_fem::{CellValues, FieldHandle, GeometryMode};
@@ -130,6 +131,16 @@ pub fn recover_coupled_nodal(
     mesh: &Mesh,
     post: &CoupledPost<'_>,
 ) -> Result<CoupledNodal, CoupledError> {
+    recover_coupled_nodal_on(mesh, post, PostThreads::Calling)
+}
+
+/// [`recover_coupled_nodal`] with its cell loop on `threads`: the same bits for any choice (the
+/// cell-node values are added to their nodes in cell order either way).
+pub fn recover_coupled_nodal_on(
+    mesh: &Mesh,
+    post: &CoupledPost<'_>,
+    threads: PostThreads<'_>,
+) -> Result<CoupledNodal, CoupledError> {
     let n = mesh.n_points();
     let mut stress = vec![Voigt::zeros(); n];
     let mut flux = vec![[0.0; 3]; n];
@@ -140,83 +151,26 @@ pub fn recover_coupled_nodal(
         stretches: vec![[0.0; 3]; n],
         swelling_ratio: vec![0.0; n],
     });
-    let orders = field_orders(post);
-    let nc = post.dofs.spec(post.fields.u).n_components;
-    let mut cache: Vec<CellValues> = Vec::new();
-    let mut local = LocalFields::default();
-    let mut coords = Vec::new();
-    for (id, kind, nodes) in mesh.cells() {
-        let pos = match cache.iter().position(|c| c.kind == kind) {
-            Some(p) => p,
-            None => {
-                cache.push(nodal_values(kind, post.mode, &orders));
-                cache.len() - 1
-            }
-        };
-        let cv = &mut cache[pos];
-        coords.clear();
-        coords.extend(nodes.iter().map(|&p| mesh.points[p]));
-        cv.reinit(id, &coords)?;
-        local.gather(post, id, kind);
-        let size = cell_size(&coords);
-        if let Some(fin) = finite.as_mut() {
-            let law = post.laws.finite_law(id);
-            for (q, &node) in nodes.iter().enumerate() {
-                let r = cv.points[q][0];
-                let axis = post.mode == GeometryMode::Axisymmetric && r.abs() < 1e-12 * size;
-                let FinitePoint { f, out, .. } =
-                    local.finite_at(law, post.mode, cv, (id, q), nc, axis)?;
-                let node = post.dofs.master_node(node);
-                stress[node] += cauchy_voigt(&out.stress, &f);
-                for d in 0..3 {
-                    flux[node][d] += out.flux[d];
-                }
-                for i in 0..3 {
-                    for k in 0..3 {
-                        fin.nominal_stress[node][3 * i + k] += out.stress[(i, k)];
-                        fin.deformation_gradient[node][3 * i + k] += f[(i, k)];
-                    }
-                }
-                let st = principal_stretches(&f);
-                for d in 0..3 {
-                    fin.stretches[node][d] += st[d];
-                }
-                fin.swelling_ratio[node] += out.swelling_ratio;
-                count[node] += 1;
-            }
-            continue;
-        }
-        let law = post.laws.law(id);
-        for (q, &node) in nodes.iter().enumerate() {
-            let strain = nodal_strain(
-                post.mode,
-                &cv.spaces[0],
-                q,
-                cv.points[q][0],
-                size,
-                &local.u,
-                nc,
-            );
-            let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
-            let out = law
-                .evaluate(&PointInput {
-                    strain,
-                    c,
-                    grad_mu,
-                    grad_c,
-                })
-                .map_err(|source| CoupledError::Range {
-                    cell: id,
-                    point: q,
-                    source,
-                })?;
-            // Periodic links: a linked node and its master are one node, averaged together.
-            let node = post.dofs.master_node(node);
-            stress[node] += out.stress;
+    let chunks = threads.map_cells(mesh.n_cells(), |cells| node_terms(mesh, post, cells));
+    for chunk in chunks {
+        let (terms, finite_terms) = chunk?;
+        for (k, t) in terms.iter().enumerate() {
+            stress[t.node] += t.stress;
             for d in 0..3 {
-                flux[node][d] += out.flux[d];
+                flux[t.node][d] += t.flux[d];
             }
-            count[node] += 1;
+            if let Some(fin) = finite.as_mut() {
+                let ft = &finite_terms[k];
+                for i in 0..9 {
+                    fin.nominal_stress[t.node][i] += ft.nominal_stress[i];
+                    fin.deformation_gradient[t.node][i] += ft.deformation_gradient[i];
+                }
+                for d in 0..3 {
+                    fin.stretches[t.node][d] += ft.stretches[d];
+                }
+                fin.swelling_ratio[t.node] += ft.swelling_ratio;
+            }
+            count[t.node] += 1;
         }
     }
     for ((s, f), &k) in stress.iter_mut().zip(&mut flux).zip(&count) {
@@ -258,12 +212,148 @@ pub fn recover_coupled_nodal(
     })
 }
 
+/// The value one cell gives one of its nodes in the nodal recovery.
+struct NodeTerms {
+    /// The node (its periodic master).
+    node: usize,
+    stress: Voigt,
+    flux: [f64; 3],
+}
+
+/// The finite-strain values one cell gives one of its nodes (row for row with [`NodeTerms`]).
+struct FiniteNodeTerms {
+    nominal_stress: [f64; 9],
+    deformation_gradient: [f64; 9],
+    stretches: [f64; 3],
+    swelling_ratio: f64,
+}
+
+/// The cell-node values of the nodal recovery over `cells`, in cell and node order (the
+/// finite-strain ones empty for a small-strain law map).
+fn node_terms(
+    mesh: &Mesh,
+    post: &CoupledPost<'_>,
+    cells: std::ops::Range<usize>,
+) -> Result<(Vec<NodeTerms>, Vec<FiniteNodeTerms>), CoupledError> {
+    let orders = field_orders(post);
+    let nc = post.dofs.spec(post.fields.u).n_components;
+    let mut cache: Vec<CellValues> = Vec::new();
+    let mut local = LocalFields::default();
+    let mut coords = Vec::new();
+    let mut terms = Vec::new();
+    let mut finite_terms = Vec::new();
+    for id in cells {
+        let (kind, nodes) = mesh.cell(id);
+        let pos = match cache.iter().position(|c| c.kind == kind) {
+            Some(p) => p,
+            None => {
+                cache.push(nodal_values(kind, post.mode, &orders));
+                cache.len() - 1
+            }
+        };
+        let cv = &mut cache[pos];
+        coords.clear();
+        coords.extend(nodes.iter().map(|&p| mesh.points[p]));
+        cv.reinit(id, &coords)?;
+        local.gather(post, id, kind);
+        let size = cell_size(&coords);
+        if post.laws.is_finite() {
+            let law = post.laws.finite_law(id);
+            for (q, &node) in nodes.iter().enumerate() {
+                let r = cv.points[q][0];
+                let axis = post.mode == GeometryMode::Axisymmetric && r.abs() < 1e-12 * size;
+                let FinitePoint { f, out, .. } =
+                    local.finite_at(law, post.mode, cv, (id, q), nc, axis)?;
+                let mut ft = FiniteNodeTerms {
+                    nominal_stress: [0.0; 9],
+                    deformation_gradient: [0.0; 9],
+                    stretches: principal_stretches(&f),
+                    swelling_ratio: out.swelling_ratio,
+                };
+                for i in 0..3 {
+                    for k in 0..3 {
+                        ft.nominal_stress[3 * i + k] = out.stress[(i, k)];
+                        ft.deformation_gradient[3 * i + k] = f[(i, k)];
+                    }
+                }
+                terms.push(NodeTerms {
+                    node: post.dofs.master_node(node),
+                    stress: cauchy_voigt(&out.stress, &f),
+                    flux: [out.flux[0], out.flux[1], out.flux[2]],
+                });
+                finite_terms.push(ft);
+            }
+            continue;
+        }
+        let law = post.laws.law(id);
+        for (q, &node) in nodes.iter().enumerate() {
+            let strain = nodal_strain(
+                post.mode,
+                &cv.spaces[0],
+                q,
+                cv.points[q][0],
+                size,
+                &local.u,
+                nc,
+            );
+            let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
+            let out = law
+                .evaluate(&PointInput {
+                    strain,
+                    c,
+                    grad_mu,
+                    grad_c,
+                })
+                .map_err(|source| CoupledError::Range {
+                    cell: id,
+                    point: q,
+                    source,
+                })?;
+            // Periodic links: a linked node and its master are one node, averaged together.
+            terms.push(NodeTerms {
+                node: post.dofs.master_node(node),
+                stress: out.stress,
+                flux: [out.flux[0], out.flux[1], out.flux[2]],
+            });
+        }
+    }
+    Ok((terms, finite_terms))
+}
+
 /// Hydrostatic, von Mises and largest principal stress of every entry of `stress`.
 pub fn build_nodal_invariants(stress: &[Voigt]) -> NodalInvariants {
     NodalInvariants {
         hydrostatic: stress.iter().map(hydrostatic).collect(),
         von_mises: stress.iter().map(von_mises).collect(),
         max_principal: stress.iter().map(max_principal).collect(),
+    }
+}
+
+/// Where the cell loops of [`coupled_integrals_on`] and [`recover_coupled_nodal_on`] run.
+#[derive(Clone, Copy)]
+pub enum PostThreads<'a> {
+    /// On the calling thread.
+    Calling,
+    /// On the threads of an assembler ([`Assembler::map_chunks`]), in chunks of
+    /// [`POST_CHUNK_CELLS`] cells whose results are combined in cell order: the same bits as
+    /// [`PostThreads::Calling`].
+    Assembler(&'a Assembler),
+}
+
+/// Cells per chunk of a threaded post-processing loop ([`PostThreads::Assembler`]).
+pub const POST_CHUNK_CELLS: usize = 256;
+
+impl PostThreads<'_> {
+    /// `f` over chunks of the cells `0..n`, results in cell order.
+    fn map_cells<T: Send>(
+        self,
+        n: usize,
+        f: impl Fn(std::ops::Range<usize>) -> T + Sync + Send,
+    ) -> Vec<T> {
+        match self {
+            PostThreads::Calling => vec![f(0..n)],
+            PostThreads::Assembler(a) => a.map_chunks(n, POST_CHUNK_CELLS, f),
+        }
     }
 }
 
@@ -278,14 +368,69 @@ pub fn coupled_integrals(
     mesh: &Mesh,
     post: &CoupledPost<'_>,
 ) -> Result<CoupledIntegrals, CoupledError> {
+    coupled_integrals_on(mesh, post, PostThreads::Calling)
+}
+
+/// [`coupled_integrals`] with its cell loop on `threads`: the same bits for any choice (the
+/// point contributions are summed in cell and point order either way).
+pub fn coupled_integrals_on(
+    mesh: &Mesh,
+    post: &CoupledPost<'_>,
+    threads: PostThreads<'_>,
+) -> Result<CoupledIntegrals, CoupledError> {
+    let chunks = threads.map_cells(mesh.n_cells(), |cells| point_terms(mesh, post, cells));
+    let mut sums = CoupledIntegrals::default();
+    // Concentration and weight of every quadrature point, for the volume above the mean.
+    let mut point_c: Vec<(f64, f64)> = Vec::new();
+    for chunk in chunks {
+        for t in chunk? {
+            sums.volume += t.w;
+            sums.deformed_volume += t.deformed_volume;
+            sums.amount += t.c * t.w;
+            sums.elastic_energy += t.elastic_energy;
+            sums.chemical_energy += t.chemical_energy;
+            sums.gradient_energy += t.gradient_energy;
+            sums.gradient_norm += t.gradient_norm;
+            point_c.push((t.c, t.w));
+        }
+    }
+    // The volume where c exceeds its mean, from the point values kept above.
+    let mean = if sums.volume > 0.0 {
+        sums.amount / sums.volume
+    } else {
+        0.0
+    };
+    sums.volume_above_mean = point_c
+        .iter()
+        .filter(|(c, _)| *c > mean)
+        .fold(0.0, |sum, (_, w)| sum + w);
+    Ok(sums)
+}
+
+/// What one quadrature point adds to the integrals (products with its weight `w` taken).
+struct PointTerms {
+    w: f64,
+    c: f64,
+    deformed_volume: f64,
+    elastic_energy: f64,
+    chemical_energy: f64,
+    gradient_energy: f64,
+    gradient_norm: f64,
+}
+
+/// The point terms of the integrals over `cells`, in cell and point order.
+fn point_terms(
+    mesh: &Mesh,
+    post: &CoupledPost<'_>,
+    cells: std::ops::Range<usize>,
+) -> Result<Vec<PointTerms>, CoupledError> {
     let mut cache = CellValuesCache::new(post.mode, stiffness_degree, field_orders(post).to_vec());
     let nc = post.dofs.spec(post.fields.u).n_components;
     let mut local = LocalFields::default();
     let mut coords = Vec::new();
-    let mut sums = CoupledIntegrals::default();
-    // Concentration and weight of every quadrature point, for the volume above the mean.
-    let mut point_c: Vec<(f64, f64)> = Vec::new();
-    for (id, kind, nodes) in mesh.cells() {
+    let mut terms = Vec::new();
+    for id in cells {
+        let (kind, nodes) = mesh.cell(id);
         let cv = cache.get(kind);
         coords.clear();
         coords.extend(nodes.iter().map(|&p| mesh.points[p]));
@@ -297,14 +442,15 @@ pub fn coupled_integrals(
                 let w = cv.jxw[q];
                 let FinitePoint { f, out, c, grad_c } =
                     local.finite_at(law, post.mode, cv, (id, q), nc, false)?;
-                sums.volume += w;
-                sums.deformed_volume += f.determinant() * w;
-                sums.amount += c * w;
-                sums.elastic_energy += out.elastic_energy * w;
-                sums.chemical_energy += out.chemical_energy * w;
-                sums.gradient_energy += out.gradient_energy * w;
-                sums.gradient_norm += grad_c.norm() * w;
-                point_c.push((c, w));
+                terms.push(PointTerms {
+                    w,
+                    c,
+                    deformed_volume: f.determinant() * w,
+                    elastic_energy: out.elastic_energy * w,
+                    chemical_energy: out.chemical_energy * w,
+                    gradient_energy: out.gradient_energy * w,
+                    gradient_norm: grad_c.norm() * w,
+                });
             }
             continue;
         }
@@ -334,27 +480,18 @@ pub fn coupled_integrals(
                     point: q,
                     source,
                 })?;
-            sums.volume += w;
-            sums.deformed_volume += w;
-            sums.amount += c * w;
-            sums.elastic_energy += out.elastic_energy * w;
-            sums.chemical_energy += out.chemical_energy * w;
-            sums.gradient_energy += out.gradient_energy * w;
-            sums.gradient_norm += grad_c.norm() * w;
-            point_c.push((c, w));
+            terms.push(PointTerms {
+                w,
+                c,
+                deformed_volume: w,
+                elastic_energy: out.elastic_energy * w,
+                chemical_energy: out.chemical_energy * w,
+                gradient_energy: out.gradient_energy * w,
+                gradient_norm: grad_c.norm() * w,
+            });
         }
     }
-    // The volume where c exceeds its mean, from the point values kept above.
-    let mean = if sums.volume > 0.0 {
-        sums.amount / sums.volume
-    } else {
-        0.0
-    };
-    sums.volume_above_mean = point_c
-        .iter()
-        .filter(|(c, _)| *c > mean)
-        .fold(0.0, |sum, (_, w)| sum + w);
-    Ok(sums)
+    Ok(terms)
 }
 
 /// One component of a field, to be averaged over boundary facets by [`boundary_mean`].

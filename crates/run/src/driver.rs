@@ -15,7 +15,7 @@ use dilata_io::{write_atomic, PvdWriter};
 use dilata_linalg::{build_solver_with, LinearSolver, Ordering, SolverConfig, SolverKind};
 use dilata_material::elastic::{hydrostatic, max_principal, von_mises};
 use dilata_physics::coupled::CoupledFields;
-use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal};
+use dilata_physics::coupled_post::{coupled_integrals_on, recover_coupled_nodal_on, PostThreads};
 use dilata_solve::coupled::CoupledProblem;
 use dilata_solve::supports::{pin_rigid_modes, rigid_modes_left, RigidBody};
 use dilata_solve::time::{
@@ -822,8 +822,9 @@ fn initial_equilibrium(
 fn derive(model: &Model, problem: &CoupledProblem<'_>, x: &[f64]) -> Result<Derived, RunError> {
     let post = problem.post(x);
     let fail = |e: &dyn std::fmt::Display| RunError::Numerical(format!("post-processing: {e}"));
-    let nodal = recover_coupled_nodal(&model.mesh, &post).map_err(|e| fail(&e))?;
-    let ints = coupled_integrals(&model.mesh, &post).map_err(|e| fail(&e))?;
+    let threads = PostThreads::Assembler(&problem.assembler);
+    let nodal = recover_coupled_nodal_on(&model.mesh, &post, threads).map_err(|e| fail(&e))?;
+    let ints = coupled_integrals_on(&model.mesh, &post, threads).map_err(|e| fail(&e))?;
     let cs: Vec<f64> = problem
         .dofs
         .field_range(problem.fields.c)

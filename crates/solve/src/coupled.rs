@@ -18,7 +18,9 @@ use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{
     CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
 };
-use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal, CoupledPost};
+use dilata_physics::coupled_post::{
+    coupled_integrals_on, recover_coupled_nodal_on, CoupledPost, PostThreads,
+};
 use dilata_physics::norms::field_integral;
 use dilata_physics::poisson::PoissonKernel;
 
@@ -541,9 +543,13 @@ impl TransientSystem for CoupledProblem<'_> {
     /// Elastic + chemical + gradient energy of the body (`coupled_integrals`); `None` when a
     /// quadrature point is outside its law's range (the step is then rejected elsewhere).
     fn free_energy(&self, x: &[f64]) -> Option<f64> {
-        coupled_integrals(self.mesh, &self.post(x))
-            .ok()
-            .map(|i| i.elastic_energy + i.chemical_energy + i.gradient_energy)
+        coupled_integrals_on(
+            self.mesh,
+            &self.post(x),
+            PostThreads::Assembler(&self.assembler),
+        )
+        .ok()
+        .map(|i| i.elastic_energy + i.chemical_energy + i.gradient_energy)
     }
 
     /// Every nodal concentration must lie in the range of the chemical and mobility laws of
@@ -563,7 +569,8 @@ impl TransientSystem for CoupledProblem<'_> {
             // The results are reported at the nodes, where the deformation gradient of each
             // cell is extrapolated from its quadrature points: a state the law cannot take there
             // (a node of a drying gel below its dry volume, an inverted corner) is refused too.
-            return match recover_coupled_nodal(self.mesh, &self.post(x)) {
+            let threads = PostThreads::Assembler(&self.assembler);
+            return match recover_coupled_nodal_on(self.mesh, &self.post(x), threads) {
                 Ok(_) => Ok(()),
                 Err(CoupledError::Range {
                     cell,
