@@ -124,10 +124,11 @@ struct EntryTable {
     fingerprint: u64,
 }
 
-/// Fewest DOFs per cell for which [`EntryTable`] is built. Measured (`fe_problems`, docs/
-/// performance.md): no gain over the searching scatter with 4 DOFs per cell (2D Poisson Q1)
-/// or 8 (the spinodal benchmark's `c`, `μ` on quad4), 20–35 % less assembly time with 12 (Tet4
-/// elasticity) and about 14 % with 32 (the axisymmetric particle's quad8 coupled cells).
+/// Fewest DOFs per cell for which [`EntryTable`] is built. Measured (`fe_problems` and the
+/// coupled benchmarks, docs/performance.md): no gain over the searching scatter with 4 DOFs
+/// per cell (2D Poisson Q1) or 8 (the spinodal benchmark's `c`, `μ` on quad4), 20–35 % less
+/// assembly time with 12 (Tet4 elasticity), within the noise with 24 (Hex8 elasticity), about
+/// 14 % less with 32 (the axisymmetric particle's quad8 coupled cells).
 const ENTRY_TABLE_MIN_DOFS: usize = 12;
 
 /// Checksum of the DOFs of every cell, in cell order (see [`EntryTable::fingerprint`]).
