@@ -137,15 +137,16 @@ fn max_norm(v: &[f64]) -> f64 {
 /// another iteration is needed, so a linear problem costs one matrix assembly, one
 /// factorisation and two residual evaluations.
 ///
-/// The linear solves are inexact in the sense of Eisenstat and Walker (SIAM J. Sci. Comput. 17
-/// (1996) 16, "choice 2", from memory): each asks the solver (through
-/// [`LinearSolver::set_requested_reduction`]) for a residual reduction `η_k` that follows the
-/// nonlinear convergence, `η_1 = FIRST_FORCING` and `η_k = γ (m_k / m_(k-1))²` afterwards (`m`
-/// the scaled residual of the line search over all blocks, `γ = 0.9`), at most
-/// `MAX_FORCING`. Far from the solution an exact solve buys nothing that the next Newton
-/// iteration keeps; near it the ratio falls quadratically and so does `η`, so the last
-/// iterations solve as tightly as the solver's own tolerance allows, and convergence is still
-/// judged on the true residual. Direct solvers ignore the request; iterative ones stop early.
+/// Each iteration tells the solver (through [`LinearSolver::set_requested_reduction`]) the
+/// residual reduction `η_k` it needs, for an inexact Newton method in the sense of Eisenstat
+/// and Walker (SIAM J. Sci. Comput. 17 (1996) 16, "choice 2", from memory): `η_1 =
+/// FIRST_FORCING` and `η_k = γ (m_k / m_(k-1))²` afterwards (`m` the scaled residual of the
+/// line search over all blocks, `γ = 0.9`), at most `MAX_FORCING`. Far from the solution an
+/// exact solve buys nothing that the next Newton iteration keeps; near it the ratio falls
+/// quadratically and so does `η`, so the last iterations solve as tightly as the solver's own
+/// tolerance allows, and convergence is still judged on the true residual. Solvers that do not
+/// follow requests solve as before: direct ones, and the symmetric-form solver unless its
+/// `follow_requested_reduction` is set (scenario key `solver.inexact_newton`).
 pub fn newton<S: DiscreteSystem>(
     system: &mut S,
     solver: &mut dyn LinearSolver,
@@ -159,9 +160,9 @@ pub fn newton<S: DiscreteSystem>(
 
 /// First forcing term of the inexact Newton iteration (see [`newton`]). Measured on the
 /// spinodal benchmark (docs/performance.md, t = 0 to 40): the first correction of a time step
-/// from its predictor reduces the residual by 0.04 to 0.3 when solved exactly; forcing terms
-/// of 1e-1, 3e-3, 1e-3 and 1e-4 there took 119, 104, 99 and 98 Newton iterations (98 with
-/// exact solves) and 460, 468, 454 and 498 GMRES iterations (793 exact).
+/// from its predictor reduces the residual by 0.04 to 0.3 when solved exactly; with first
+/// forcing term and cap 1e-1, 3e-3 and 1e-3 the window took 119, 104 and 99 Newton iterations
+/// (98 with exact solves) and 460, 468 and 454 GMRES iterations (793 exact).
 const FIRST_FORCING: f64 = 1e-3;
 /// Largest forcing term (see [`newton`]).
 const MAX_FORCING: f64 = 1e-3;
