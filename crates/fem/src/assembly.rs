@@ -107,7 +107,8 @@ pub struct Assembler {
     threads: AssemblyThreads,
     parallelism: Parallelism,
     /// Where each local matrix entry of each cell goes in the CSR values (see [`EntryTable`]);
-    /// `None` when the table would take more memory than the matrix it serves.
+    /// `None` for cells with fewer than `ENTRY_TABLE_MIN_DOFS` DOFs, or when the table would
+    /// hold more bytes than twice the matrix values.
     entries: Option<EntryTable>,
 }
 
