@@ -39,7 +39,7 @@ use dilata_material::finite::FiniteLaw;
 use nalgebra::Vector3;
 
 use crate::cellcache::{stiffness_degree, CellValuesCache};
-use crate::elasticity::{node_b, strain_at, VectorFn};
+use crate::elasticity::{node_b, VectorFn};
 use crate::poisson::ScalarFn;
 
 /// Handles of the three fields of the coupled problem.
@@ -402,6 +402,37 @@ impl CellKernel for CoupledKernel<'_> {
         if self.laws.is_finite() {
             return crate::finite::finite_cell_into(self, input, s, out);
         }
+        // The point loop with the displacement components and the Voigt rows that can be
+        // nonzero as constants (all six in 3D; xx, yy, zz (hoop) and xy in 2D; no mechanics in
+        // a run whose `u` field has no components), so that its small loops unroll. The
+        // arithmetic and its order are the same for every instance.
+        // The structural zeros of `B` (`StrainRows`) are skipped; they contributed exact zeros.
+        match (self.dofs.spec(self.fields.u).n_components, self.mode) {
+            (0, _) => self.cell_points::<0, 0, PlaneRows>(input, s, out),
+            (3, GeometryMode::ThreeD) => self.cell_points::<3, 6, SolidRows>(input, s, out),
+            (2, GeometryMode::PlaneStrain | GeometryMode::PlaneStress) => {
+                self.cell_points::<2, 4, PlaneRows>(input, s, out)
+            }
+            (2, GeometryMode::Axisymmetric) => {
+                self.cell_points::<2, 4, AxisymmetricRows>(input, s, out)
+            }
+            (nc, mode) => unreachable!("{nc} displacement components in mode {mode:?}"),
+        }
+    }
+}
+
+impl CoupledKernel<'_> {
+    /// [`CellKernel::cell_into`] of the small-strain kernel with `NC` displacement components,
+    /// `NK` Voigt rows that can be nonzero (`NC = 0`: no mechanics) and the nonzero rows of
+    /// `B` per component from `P`. Sums run over those rows in increasing order: the products
+    /// left out are exact zeros, so the sums are the ones over all rows.
+    #[inline(always)]
+    fn cell_points<const NC: usize, const NK: usize, P: StrainRows>(
+        &self,
+        input: &CellInput<'_>,
+        s: &mut CoupledScratch,
+        out: LocalOutput<'_>,
+    ) -> Result<(), CoupledError> {
         self.gather(input, s);
         let CoupledScratch {
             cache,
@@ -411,24 +442,16 @@ impl CellKernel for CoupledKernel<'_> {
             mub: mub_all,
         } = s;
         let s = &*local;
-        // Voigt rows that can be nonzero: all six in 3D, xx, yy, zz (hoop) and xy in 2D.
-        let nk = if self.mode == GeometryMode::ThreeD {
-            6
-        } else {
-            4
-        };
         let cv = cache.get(input.kind);
         cv.reinit(input.id, input.coords)?;
-        let nc = self.dofs.spec(self.fields.u).n_components;
         let ru = self.dofs.local_range(self.fields.u, input.kind);
         let rc = self.dofs.local_range(self.fields.c, input.kind);
         let rm = self.dofs.local_range(self.fields.mu, input.kind);
         let n_loc = input.dofs.len();
         let (su, sc, sm) = (&cv.spaces[0], &cv.spaces[1], &cv.spaces[2]);
-        let (nu, ncn, nmn) = (su.n_nodes(), sc.n_nodes(), sm.n_nodes());
-        // Displacement nodes with unknowns (none in a run without mechanics, whose `u` field
-        // has no components).
-        let nu_m = if nc == 0 { 0 } else { nu };
+        let (ncn, nmn) = (sc.n_nodes(), sm.n_nodes());
+        // Displacement nodes with unknowns (none in a run without mechanics).
+        let nu_m = if NC == 0 { 0 } else { su.n_nodes() };
         let LocalOutput {
             mut matrix,
             mut vector,
@@ -441,11 +464,15 @@ impl CellKernel for CoupledKernel<'_> {
             let (gu, vu) = (su.grads(q), su.values(q));
             let vc = sc.values(q);
             let vm = sm.values(q);
-            let strain: Voigt = if nu_m == 0 {
-                Voigt::zeros()
-            } else {
-                strain_at(self.mode, gu, vu, r, &s.u, nc)
-            };
+            let mut strain = Voigt::zeros();
+            for a in 0..nu_m {
+                let b = node_b(self.mode, gu[a], vu[a], r);
+                for j in 0..NC {
+                    for &k in P::ROWS[j] {
+                        strain[k] += b[k][j] * s.u[a * NC + j];
+                    }
+                }
+            }
             let at_q = s.scalars_at(sc, sm, q, has_gradient);
             let p = law
                 .evaluate(&PointInput {
@@ -480,9 +507,12 @@ impl CellKernel for CoupledKernel<'_> {
                 let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
                 for a in 0..nu_m {
                     let ba = node_b(self.mode, gu[a], vu[a], r);
-                    for i in 0..nc {
-                        let v: f64 = (0..nk).map(|k| ba[k][i] * p.stress[k]).sum();
-                        fe[ru.start + a * nc + i] += (v - vu[a] * body[i]) * w;
+                    for i in 0..NC {
+                        let mut v = 0.0;
+                        for &k in P::ROWS[i] {
+                            v += ba[k][i] * p.stress[k];
+                        }
+                        fe[ru.start + a * NC + i] += (v - vu[a] * body[i]) * w;
                     }
                 }
                 let src = self.source.map_or(0.0, |f| f(cv.points[q]));
@@ -494,45 +524,45 @@ impl CellKernel for CoupledKernel<'_> {
             }
             if let Some(ke) = matrix.as_deref_mut() {
                 let at = |row: usize, col: usize| row * n_loc + col;
-                // B_b, C B_b and (∂μ/∂ε) B_b once per node and point.
-                b_all.clear();
-                cb_all.clear();
-                mub_all.clear();
-                for b in 0..nu_m {
-                    let bb = node_b(self.mode, gu[b], vu[b], r);
-                    let mut cb = [[0.0; 3]; 6];
-                    let mut mub = [0.0; 3];
-                    for k in 0..nk {
-                        for l in 0..nk {
-                            let ckl = p.dstress_dstrain[(k, l)];
-                            for j in 0..nc {
-                                cb[k][j] += ckl * bb[l][j];
+                if NC > 0 {
+                    // B_b, C B_b and (∂μ/∂ε) B_b once per node and point.
+                    b_all.clear();
+                    cb_all.clear();
+                    mub_all.clear();
+                    for b in 0..nu_m {
+                        let bb = node_b(self.mode, gu[b], vu[b], r);
+                        let mut cb = [[0.0; 3]; 6];
+                        let mut mub = [0.0; 3];
+                        for k in 0..NK {
+                            for j in 0..NC {
+                                for &l in P::ROWS[j] {
+                                    cb[k][j] += p.dstress_dstrain[(k, l)] * bb[l][j];
+                                }
                             }
                         }
-                        for j in 0..nc {
-                            mub[j] += p.dmu_dstrain[k] * bb[k][j];
+                        for j in 0..NC {
+                            for &k in P::ROWS[j] {
+                                mub[j] += p.dmu_dstrain[k] * bb[k][j];
+                            }
                         }
+                        b_all.push(bb);
+                        cb_all.push(cb);
+                        mub_all.push(mub);
                     }
-                    b_all.push(bb);
-                    cb_all.push(cb);
-                    mub_all.push(mub);
-                }
-                // Momentum rows: the symmetric B_aᵀ C B_b (upper block triangle here, mirrored
-                // after the last point) and the coupling to c.
-                match (nc, nk) {
-                    _ if nu_m == 0 => {}
-                    (2, 4) => add_upper_momentum::<2, 4>(ke, n_loc, ru.start, b_all, cb_all, w),
-                    (3, 6) => add_upper_momentum::<3, 6>(ke, n_loc, ru.start, b_all, cb_all, w),
-                    _ => unreachable!("{nc} displacement components with {nk} strain components"),
-                }
-                for a in 0..nu_m {
-                    let ba = &b_all[a];
-                    for i in 0..nc {
-                        let row = ru.start + a * nc + i;
-                        let bdc: f64 = (0..nk).map(|k| ba[k][i] * p.dstress_dc[k]).sum();
-                        let cols = &mut ke[at(row, rc.start)..at(row, rc.start + ncn)];
-                        for (k, &vb) in cols.iter_mut().zip(vc) {
-                            *k += bdc * vb * w;
+                    // Momentum rows: the symmetric B_aᵀ C B_b (upper block triangle here,
+                    // mirrored after the last point) and the coupling to c.
+                    add_upper_momentum::<NC, P>(ke, n_loc, ru.start, b_all, cb_all, w);
+                    for (a, ba) in b_all.iter().enumerate() {
+                        for i in 0..NC {
+                            let row = ru.start + a * NC + i;
+                            let mut bdc = 0.0;
+                            for &k in P::ROWS[i] {
+                                bdc += ba[k][i] * p.dstress_dc[k];
+                            }
+                            let cols = &mut ke[at(row, rc.start)..at(row, rc.start + ncn)];
+                            for (k, &vb) in cols.iter_mut().zip(vc) {
+                                *k += bdc * vb * w;
+                            }
                         }
                     }
                 }
@@ -543,10 +573,10 @@ impl CellKernel for CoupledKernel<'_> {
                 for a in 0..nmn {
                     let row = &mut ke[at(rm.start + a, 0)..at(rm.start + a + 1, 0)];
                     let va = vm[a];
-                    if nc > 0 {
-                        let cols = &mut row[ru.start..ru.start + mub_all.len() * nc];
-                        for (k, mub) in cols.chunks_exact_mut(nc).zip(mub_all.iter()) {
-                            for j in 0..nc {
+                    if NC > 0 {
+                        let cols = &mut row[ru.start..ru.start + mub_all.len() * NC];
+                        for (k, mub) in cols.chunks_exact_mut(NC).zip(mub_all.iter()) {
+                            for j in 0..NC {
                                 k[j] -= va * mub[j] * w;
                             }
                         }
@@ -565,11 +595,11 @@ impl CellKernel for CoupledKernel<'_> {
             // The lower block triangle of the momentum block from its upper one (the buffer is
             // zero on entry, `LocalOutput`, and nothing else writes there).
             for a in 0..nu_m {
-                for i in 0..nc {
-                    let row = ru.start + a * nc + i;
+                for i in 0..NC {
+                    let row = ru.start + a * NC + i;
                     for b in 0..a {
-                        for j in 0..nc {
-                            let col = ru.start + b * nc + j;
+                        for j in 0..NC {
+                            let col = ru.start + b * NC + j;
                             ke[row * n_loc + col] = ke[col * n_loc + row];
                         }
                     }
@@ -580,11 +610,35 @@ impl CellKernel for CoupledKernel<'_> {
     }
 }
 
+/// The Voigt rows in which column `i` of a node's strain–displacement matrix `B`
+/// (`elasticity::node_b`) can be nonzero, per geometry mode.
+pub(crate) trait StrainRows {
+    const ROWS: [&'static [usize]; 3];
+}
+
+/// 3D: `ε_xx, ε_yy, ε_zz, γ_xy, γ_yz, γ_xz`.
+pub(crate) struct SolidRows;
+impl StrainRows for SolidRows {
+    const ROWS: [&'static [usize]; 3] = [&[0, 3, 5], &[1, 3, 4], &[2, 4, 5]];
+}
+
+/// Plane strain and plane stress: `ε_xx, ε_yy, γ_xy` (the `ε_zz` row of `B` is zero).
+pub(crate) struct PlaneRows;
+impl StrainRows for PlaneRows {
+    const ROWS: [&'static [usize]; 3] = [&[0, 3], &[1, 3], &[]];
+}
+
+/// Axisymmetric: `ε_rr, ε_zz, ε_θθ = u_r / r, γ_rz`.
+pub(crate) struct AxisymmetricRows;
+impl StrainRows for AxisymmetricRows {
+    const ROWS: [&'static [usize]; 3] = [&[0, 2, 3], &[1, 3], &[]];
+}
+
 /// `ke[(a,i),(b,j)] += w Σ_k B_a[k][i] (C B_b)[k][j]` for the node pairs `b ≥ a` of the
-/// displacement block starting at local index `start` (`NC` components per node, `NK` strain
-/// components that can be nonzero).
+/// displacement block starting at local index `start` (`NC` components per node; `k` over the
+/// rows where `B_a[·][i]` can be nonzero, from `P`).
 #[inline]
-fn add_upper_momentum<const NC: usize, const NK: usize>(
+fn add_upper_momentum<const NC: usize, P: StrainRows>(
     ke: &mut [f64],
     n_loc: usize,
     start: usize,
@@ -595,8 +649,9 @@ fn add_upper_momentum<const NC: usize, const NK: usize>(
     let nu = b_all.len();
     for a in 0..nu {
         for i in 0..NC {
-            let mut bai = [0.0; NK];
-            for k in 0..NK {
+            let rows = P::ROWS[i];
+            let mut bai = [0.0; 6];
+            for &k in rows {
                 bai[k] = b_all[a][k][i] * w;
             }
             let row = (start + a * NC + i) * n_loc + start;
@@ -604,7 +659,7 @@ fn add_upper_momentum<const NC: usize, const NK: usize>(
             for (blk, cb) in out.chunks_exact_mut(NC).zip(&cb_all[a..]) {
                 for j in 0..NC {
                     let mut v = 0.0;
-                    for k in 0..NK {
+                    for &k in rows {
                         v += bai[k] * cb[k][j];
                     }
                     blk[j] += v;
