@@ -1,8 +1,9 @@
 //! The symmetric form of the coupled Jacobian (docs/theory.md, "Symmetric form of the coupled
 //! Jacobian"): the row transform of `CoupledProblem` makes `T J` symmetric when the mobility
 //! does not depend on the concentration, with and without a prescribed potential; with a
-//! concentration-dependent mobility it is not (the check can fail); and a time step solved
-//! with the symmetric-form solver equals the one solved with the sparse LU.
+//! concentration-dependent mobility it is not (the check can fail); a time step solved
+//! with the symmetric-form solver equals the one solved with the sparse LU; and the
+//! matrix-only assembly Newton uses after a line search (`jacobian_into`) is the full one's.
 
 mod common;
 
@@ -166,6 +167,48 @@ fn assembled_transform(constant_mobility: bool, prescribed_mu: bool) -> (Vec<Vec
     p.assemble_into(&x, &mut j, &mut r).unwrap();
     let t = p.row_transform().expect("equal orders of c and mu");
     (transformed(&j, &t), t.signs)
+}
+
+/// `jacobian_into` (the matrix alone, for a point whose residual the line search already
+/// has) gives the matrix of `assemble_into` bit for bit and leaves the residual it is handed
+/// alone, with and without the row swap of a prescribed potential and with facet fluxes.
+#[test]
+fn matrix_only_assembly_is_the_full_assembly_s_matrix() {
+    let mesh = mesh();
+    for prescribed_mu in [false, true] {
+        let mut p = problem(&mesh, false, prescribed_mu);
+        let n = p.dofs.n_dofs();
+        let history: Vec<f64> = (0..n).map(|i| -((i % 5) as f64) * 40.0).collect();
+        p.begin_step(0.5, 1.0 / 0.5, &history);
+        let x = state(&mesh, &p);
+        let mut full = CsrMatrix::zeros(p.pattern());
+        let mut r = vec![0.0; n];
+        p.assemble_into(&x, &mut full, &mut r).unwrap();
+        // A matrix holding other values first: the matrix-only pass must overwrite them.
+        let mut alone = CsrMatrix::zeros(p.pattern());
+        alone.values.iter_mut().for_each(|v| *v = 7.0);
+        let marker: Vec<f64> = (0..n).map(|i| i as f64 + 0.5).collect();
+        let mut kept = marker.clone();
+        p.jacobian_into(&x, &mut alone, &mut kept).unwrap();
+        assert!(
+            full.values.iter().any(|&v| v != 0.0) && r.iter().any(|&v| v != 0.0),
+            "prescribed μ {prescribed_mu}: nothing assembled"
+        );
+        let differ = full
+            .values
+            .iter()
+            .zip(&alone.values)
+            .filter(|(a, b)| a.to_bits() != b.to_bits())
+            .count();
+        assert_eq!(
+            differ, 0,
+            "prescribed μ {prescribed_mu}: {differ} entries differ"
+        );
+        assert_eq!(
+            kept, marker,
+            "prescribed μ {prescribed_mu}: residual changed"
+        );
+    }
 }
 
 /// With a constant mobility the transformed Jacobian is symmetric to round-off, and its

@@ -235,13 +235,13 @@ impl<'m> CoupledProblem<'m> {
         }
     }
 
-    /// Assemble the residual (and tangent) at `x`, with the constraints' scatter when
+    /// Assemble the residual and/or the tangent at `x`, with the constraints' scatter when
     /// `constrained`, and with the row swap where `μ` is constrained.
     fn assemble(
         &mut self,
         x: &[f64],
         matrix: Option<&mut CsrMatrix>,
-        residual: &mut [f64],
+        residual: Option<&mut [f64]>,
         constrained: bool,
     ) -> Result<(), CoupledError> {
         self.refresh_swap();
@@ -250,7 +250,7 @@ impl<'m> CoupledProblem<'m> {
             .resize(self.constraints.n_constrained(), 0.0);
         let mut target = AssemblyTarget {
             matrix,
-            vector: Some(residual),
+            vector: residual,
             constraints: constrained.then_some((&self.constraints, &self.zero_increments[..])),
         };
         self.assembler.begin(&mut target);
@@ -335,7 +335,7 @@ impl<'m> CoupledProblem<'m> {
     pub fn mass_rates(&mut self, x: &[f64]) -> Result<MassRates, CoupledError> {
         let n = self.dofs.n_dofs();
         let mut r = vec![0.0; n];
-        self.assemble(x, None, &mut r, false)?;
+        self.assemble(x, None, Some(&mut r), false)?;
         let (fc, fm) = (self.fields.c, self.fields.mu);
         let (mut reaction, mut imbalance) = (0.0, 0.0);
         for node in self.dofs.field_nodes(fc) {
@@ -424,14 +424,27 @@ impl DiscreteSystem for CoupledProblem<'_> {
         residual: &mut [f64],
     ) -> Result<(), CoupledError> {
         let start = std::time::Instant::now();
-        let result = self.assemble(x, Some(jacobian), residual, true);
+        let result = self.assemble(x, Some(jacobian), Some(residual), true);
         self.assembly_seconds += start.elapsed().as_secs_f64();
         result
     }
 
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), CoupledError> {
         let start = std::time::Instant::now();
-        let result = self.assemble(x, None, residual, true);
+        let result = self.assemble(x, None, Some(residual), true);
+        self.assembly_seconds += start.elapsed().as_secs_f64();
+        result
+    }
+
+    /// The matrix alone: the residual at `x` is already in `residual`.
+    fn jacobian_into(
+        &mut self,
+        x: &[f64],
+        jacobian: &mut CsrMatrix,
+        _residual: &mut [f64],
+    ) -> Result<(), CoupledError> {
+        let start = std::time::Instant::now();
+        let result = self.assemble(x, Some(jacobian), None, true);
         self.assembly_seconds += start.elapsed().as_secs_f64();
         result
     }

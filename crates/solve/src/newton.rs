@@ -23,6 +23,19 @@ pub trait DiscreteSystem {
     ) -> Result<(), Self::Error>;
     /// Residual only (used by the line search).
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), Self::Error>;
+    /// Jacobian at `x` when `residual` already holds the residual at this very `x` (the
+    /// accepted point of the line search), which it must leave as it is. Default:
+    /// [`DiscreteSystem::assemble_into`], which computes the residual again (to the same
+    /// values); systems whose cell loop can form the matrix alone override it and save the
+    /// residual's share of the pass.
+    fn jacobian_into(
+        &mut self,
+        x: &[f64],
+        jacobian: &mut CsrMatrix,
+        residual: &mut [f64],
+    ) -> Result<(), Self::Error> {
+        self.assemble_into(x, jacobian, residual)
+    }
     /// Ranges of unknowns measured separately by the convergence test (one per field, since
     /// fields carry different units). Default: one block.
     fn blocks(&self) -> Vec<std::ops::Range<usize>> {
@@ -332,8 +345,9 @@ fn newton_iterations<S: DiscreteSystem>(
                 // `res` already holds the residual at the accepted point (line search).
                 continue;
             }
+            // `res` holds the residual at `x` (line search).
             system
-                .assemble_into(x, &mut jac, &mut res)
+                .jacobian_into(x, &mut jac, &mut res)
                 .map_err(NewtonError::System)?;
             floors = round_off_floors(&jac, x, &blocks);
             factored_current = false;
