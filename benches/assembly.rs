@@ -1,6 +1,9 @@
 //! Regression tracking of the stiffness assembly: one Poisson Q1 assembly on a 300 × 300 unit
 //! square (90 601 DOFs) and one P1 elasticity assembly on a 16³ unit cube of Tet4 (14 739 DOFs),
-//! matrix only, on the calling thread and on a 2-thread pool. Run with
+//! matrix only; and the coupled deformation–diffusion kernel on the mesh of the charging-particle
+//! benchmark (axisymmetric quarter disc of quad8, quadratic `u`, `c` and `μ`, 21 316 DOFs, a
+//! lattice-gas host), Jacobian with residual and residual alone; each on the calling thread and
+//! on a 2-thread pool. Run with
 //! `cargo bench --bench assembly`. Whole-process comparisons against the peer live in
 //! `benches/fe_problems.rs` and `bench/run_all.sh`.
 
@@ -10,7 +13,9 @@ use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Through
 use dilata_fem::dofs::DofMap;
 use dilata_fem::{Assembler, AssemblyTarget, FieldSpec, GeometryMode, Parallelism};
 use dilata_material::elastic::Isotropic;
-use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
+use dilata_mesh::generate::{
+    cuboid, quarter_disc, rectangle, BoxParams, DiscParams, RectangleParams,
+};
 use dilata_mesh::CellKind;
 use dilata_physics::elasticity::{mode_stiffness, ElasticityKernel};
 use dilata_physics::poisson::PoissonKernel;
@@ -119,5 +124,128 @@ fn elasticity_p1(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, poisson_q1, elasticity_p1);
+/// The coupled kernel of the charging-particle benchmark (bench/scenarios/particle_axisym.toml:
+/// its mesh and material; a state with gradients in every field).
+fn coupled_axisym(c: &mut Criterion) {
+    use dilata_material::chemical::{ChemicalLaw, LatticeGasParams};
+    use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
+    use dilata_material::mobility::{Diffusivity, LatticeGasMobilityParams, MobilityLaw};
+    use dilata_material::stiffness::StiffnessLaw;
+    use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+    use dilata_physics::coupled::{CoupledFields, CoupledKernel, LawMap, RateTerm};
+
+    let radius = 5e-6;
+    let mesh = quarter_disc(&DiscParams {
+        radius,
+        n_cells: 24,
+        kind: CellKind::Quad8,
+    })
+    .expect("mesh");
+    let dofs = DofMap::build(
+        &mesh,
+        &[
+            FieldSpec::vector("u", 2, 2),
+            FieldSpec::scalar("c", 2),
+            FieldSpec::scalar("mu", 2),
+        ],
+    )
+    .expect("dofs");
+    let fields = CoupledFields {
+        u: dofs.field("u").expect("u"),
+        c: dofs.field("c").expect("c"),
+        mu: dofs.field("mu").expect("mu"),
+    };
+    let (c_max, temperature) = (2.4e4, 298.15);
+    let law = CoupledPointLaw::new(CoupledLawParts {
+        stiffness: StiffnessLaw::isotropic(Isotropic::new(80e9, 0.3).expect("moduli")),
+        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
+            partial_molar_volume: 3e-6,
+            c_ref: 1200.0,
+        })
+        .expect("swelling"),
+        chemical: ChemicalLaw::lattice_gas(LatticeGasParams {
+            mu0: 0.0,
+            temperature,
+            c_max,
+            interaction: 0.0,
+        })
+        .expect("chemical"),
+        mobility: MobilityLaw::lattice_gas(LatticeGasMobilityParams {
+            diffusivity: Diffusivity::isotropic(1e-14).expect("diffusivity"),
+            temperature,
+            c_max,
+        })
+        .expect("mobility"),
+        gradient: dilata_material::gradient::GradientEnergy::none(),
+    })
+    .expect("law");
+    let laws = LawMap::uniform(law, mesh.n_cells());
+    let mut x = vec![0.0; dofs.n_dofs()];
+    for (node, p) in mesh.points.iter().enumerate() {
+        let (s, t) = (p[0] / radius, p[1] / radius);
+        for comp in 0..2 {
+            x[dofs.node_dof(fields.u, node, comp).expect("u")] = 1e-9 * (s + 0.3 * t * comp as f64);
+        }
+        x[dofs.node_dof(fields.c, node, 0).expect("c")] = 1200.0 * (1.0 + s * s + 0.5 * t);
+        x[dofs.node_dof(fields.mu, node, 0).expect("mu")] = 1e3 * (s - t * t);
+    }
+    let history: Vec<f64> = x.iter().map(|v| -v / 10.0).collect();
+    let kernel = CoupledKernel {
+        dofs: &dofs,
+        fields,
+        mode: GeometryMode::Axisymmetric,
+        laws: &laws,
+        rate: RateTerm {
+            a0: 0.1,
+            history: &history,
+        },
+        source: None,
+        body_force: None,
+        potential_source: None,
+        solution: &x,
+    };
+    let mut group = c.benchmark_group("assembly_coupled_axisym_quad8");
+    group.sample_size(20);
+    group.throughput(Throughput::Elements(dofs.n_dofs() as u64));
+    for (name, par) in settings() {
+        let assembler = Assembler::build(&mesh, &dofs, par);
+        let mut k = assembler.build_matrix();
+        let mut r = vec![0.0; dofs.n_dofs()];
+        group.bench_function(BenchmarkId::new("jacobian", name), |b| {
+            b.iter(|| {
+                assembler
+                    .assemble(
+                        &mesh,
+                        &dofs,
+                        &kernel,
+                        AssemblyTarget {
+                            matrix: Some(black_box(&mut k)),
+                            vector: Some(black_box(&mut r)),
+                            constraints: None,
+                        },
+                    )
+                    .expect("assembly")
+            })
+        });
+        group.bench_function(BenchmarkId::new("residual", name), |b| {
+            b.iter(|| {
+                assembler
+                    .assemble(
+                        &mesh,
+                        &dofs,
+                        &kernel,
+                        AssemblyTarget {
+                            matrix: None,
+                            vector: Some(black_box(&mut r)),
+                            constraints: None,
+                        },
+                    )
+                    .expect("assembly")
+            })
+        });
+    }
+    group.finish();
+}
+
+criterion_group!(benches, poisson_q1, elasticity_p1, coupled_axisym);
 criterion_main!(benches);
