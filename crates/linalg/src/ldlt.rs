@@ -886,13 +886,22 @@ impl<V: FactorValue> Pass<'_, V> {
                 let d = dot(lj, t);
                 x[c0 + j] -= d;
             }
+            // Row j of the transposed triangle: a dot product with the entries after j (in
+            // the partial sums of `dot`, which vectorise; one running sum waited on every
+            // addition).
             for j in (0..m).rev() {
-                let col = &v[j * ld..j * ld + m];
-                let mut acc = 0.0;
-                for i in j + 1..m {
-                    acc += col[i].into() * x[c0 + i];
-                }
-                x[c0 + j] -= acc;
+                let col = &v[j * ld + j + 1..j * ld + m];
+                let (head, after) = x[c0..c0 + m].split_at_mut(j + 1);
+                #[cfg(target_arch = "x86_64")]
+                let d = if AVX2 {
+                    // SAFETY: as above.
+                    unsafe { V::dot_avx2(col, after) }
+                } else {
+                    dot(col, after)
+                };
+                #[cfg(not(target_arch = "x86_64"))]
+                let d = dot(col, after);
+                head[j] -= d;
             }
         }
     }
