@@ -11,12 +11,13 @@ use std::hint::black_box;
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
 use dilata_fem::dofs::DofMap;
-use dilata_fem::{Assembler, AssemblyTarget, FieldSpec, GeometryMode, Parallelism};
+use dilata_fem::{Assembler, AssemblyTarget, CellKernel, FieldSpec, GeometryMode, Parallelism};
+use dilata_linalg::CsrMatrix;
 use dilata_material::elastic::Isotropic;
 use dilata_mesh::generate::{
     cuboid, quarter_disc, rectangle, BoxParams, DiscParams, RectangleParams,
 };
-use dilata_mesh::CellKind;
+use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::elasticity::{mode_stiffness, ElasticityKernel};
 use dilata_physics::poisson::PoissonKernel;
 
@@ -31,6 +32,31 @@ fn settings() -> [(&'static str, Parallelism); 2] {
         ("seq", Parallelism::Sequential),
         ("rayon2", Parallelism::Rayon { threads: 2 }),
     ]
+}
+
+/// One assembly of `kernel` into the given targets (no constraints).
+fn assemble_once<K: CellKernel>(
+    assembler: &Assembler,
+    mesh: &Mesh,
+    dofs: &DofMap,
+    kernel: &K,
+    matrix: Option<&mut CsrMatrix>,
+    vector: Option<&mut [f64]>,
+) where
+    K::Error: std::fmt::Debug,
+{
+    assembler
+        .assemble(
+            mesh,
+            dofs,
+            kernel,
+            AssemblyTarget {
+                matrix: matrix.map(black_box),
+                vector: vector.map(black_box),
+                constraints: None,
+            },
+        )
+        .expect("assembly")
 }
 
 fn poisson_q1(c: &mut Criterion) {
@@ -59,20 +85,7 @@ fn poisson_q1(c: &mut Criterion) {
         let assembler = Assembler::build(&mesh, &dofs, par);
         let mut k = assembler.build_matrix();
         group.bench_function(BenchmarkId::new("matrix", name), |b| {
-            b.iter(|| {
-                assembler
-                    .assemble(
-                        &mesh,
-                        &dofs,
-                        &kernel,
-                        AssemblyTarget {
-                            matrix: Some(black_box(&mut k)),
-                            vector: None,
-                            constraints: None,
-                        },
-                    )
-                    .expect("assembly")
-            })
+            b.iter(|| assemble_once(&assembler, &mesh, &dofs, &kernel, Some(&mut k), None))
         });
     }
     group.finish();
@@ -105,20 +118,7 @@ fn elasticity_p1(c: &mut Criterion) {
         let assembler = Assembler::build(&mesh, &dofs, par);
         let mut k = assembler.build_matrix();
         group.bench_function(BenchmarkId::new("matrix", name), |b| {
-            b.iter(|| {
-                assembler
-                    .assemble(
-                        &mesh,
-                        &dofs,
-                        &kernel,
-                        AssemblyTarget {
-                            matrix: Some(black_box(&mut k)),
-                            vector: None,
-                            constraints: None,
-                        },
-                    )
-                    .expect("assembly")
-            })
+            b.iter(|| assemble_once(&assembler, &mesh, &dofs, &kernel, Some(&mut k), None))
         });
     }
     group.finish();
@@ -213,35 +213,18 @@ fn coupled_axisym(c: &mut Criterion) {
         let mut r = vec![0.0; dofs.n_dofs()];
         group.bench_function(BenchmarkId::new("jacobian", name), |b| {
             b.iter(|| {
-                assembler
-                    .assemble(
-                        &mesh,
-                        &dofs,
-                        &kernel,
-                        AssemblyTarget {
-                            matrix: Some(black_box(&mut k)),
-                            vector: Some(black_box(&mut r)),
-                            constraints: None,
-                        },
-                    )
-                    .expect("assembly")
+                assemble_once(
+                    &assembler,
+                    &mesh,
+                    &dofs,
+                    &kernel,
+                    Some(&mut k),
+                    Some(&mut r),
+                )
             })
         });
         group.bench_function(BenchmarkId::new("residual", name), |b| {
-            b.iter(|| {
-                assembler
-                    .assemble(
-                        &mesh,
-                        &dofs,
-                        &kernel,
-                        AssemblyTarget {
-                            matrix: None,
-                            vector: Some(black_box(&mut r)),
-                            constraints: None,
-                        },
-                    )
-                    .expect("assembly")
-            })
+            b.iter(|| assemble_once(&assembler, &mesh, &dofs, &kernel, None, Some(&mut r)))
         });
     }
     group.finish();
