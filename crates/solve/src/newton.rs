@@ -24,10 +24,10 @@ pub trait DiscreteSystem {
     /// Residual only (used by the line search).
     fn residual_into(&mut self, x: &[f64], residual: &mut [f64]) -> Result<(), Self::Error>;
     /// Jacobian at `x` when `residual` already holds the residual at this very `x` (the
-    /// accepted point of the line search), which it must leave as it is. Default:
-    /// [`DiscreteSystem::assemble_into`], which computes the residual again (to the same
-    /// values); systems whose cell loop can form the matrix alone override it and save the
-    /// residual's share of the pass.
+    /// accepted point of the line search); on return it must still hold it. Default:
+    /// [`DiscreteSystem::assemble_into`], which computes the residual again, to the values of
+    /// `residual_into`; systems whose cell loop can form the matrix alone override it, leave
+    /// `residual` untouched and save the residual's share of the pass.
     fn jacobian_into(
         &mut self,
         x: &[f64],
