@@ -268,10 +268,16 @@ impl Assembler {
             .collect();
         match &self.threads {
             AssemblyThreads::Sequential => ranges.into_iter().map(f).collect(),
-            AssemblyThreads::Current => ranges.par_iter().map(|r| f(r.clone())).collect(),
-            AssemblyThreads::Private(pool) => {
-                pool.install(|| ranges.par_iter().map(|r| f(r.clone())).collect())
-            }
+            _ => self.install(|| ranges.par_iter().map(|r| f(r.clone())).collect()),
+        }
+    }
+
+    /// Run `f`, whose parallel loops then use the assembler's threads: its own pool if it has
+    /// one, the caller's otherwise.
+    fn install<R: Send>(&self, f: impl FnOnce() -> R + Send) -> R {
+        match &self.threads {
+            AssemblyThreads::Private(pool) => pool.install(f),
+            _ => f(),
         }
     }
 
@@ -316,16 +322,10 @@ impl Assembler {
     /// charging-particle benchmark, measured with a temporary timer).
     fn zero(&self, values: &mut [f64]) {
         const BLOCK: usize = 1 << 16;
-        let par = |values: &mut [f64]| {
-            values
-                .par_chunks_mut(BLOCK)
-                .for_each(|b| b.iter_mut().for_each(|v| *v = 0.0))
-        };
-        match &self.threads {
-            _ if values.len() <= BLOCK => values.iter_mut().for_each(|v| *v = 0.0),
-            AssemblyThreads::Sequential => values.iter_mut().for_each(|v| *v = 0.0),
-            AssemblyThreads::Current => par(values),
-            AssemblyThreads::Private(pool) => pool.install(|| par(values)),
+        if values.len() <= BLOCK || matches!(self.threads, AssemblyThreads::Sequential) {
+            values.fill(0.0);
+        } else {
+            self.install(|| values.par_chunks_mut(BLOCK).for_each(|b| b.fill(0.0)));
         }
     }
 
@@ -422,8 +422,7 @@ impl Assembler {
                     let mut s = (kernel.build_scratch(), LocalBuffers::new(n_max));
                     chunks.iter().try_for_each(|chunk| work(&mut s, chunk))
                 }
-                AssemblyThreads::Current => parallel(),
-                AssemblyThreads::Private(pool) => pool.install(parallel),
+                _ => self.install(parallel),
             }
         };
         for chunks in &self.colors {
