@@ -18,7 +18,7 @@
 //! unknowns the system marks as dynamic. A step is accepted when that norm is at most 1; the next
 //! step is `Δt · safety · norm^(−1/(k+1))`, limited by the growth and shrink bounds.
 
-use crate::newton::{newton, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
+use crate::newton::{newton_in_step, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
 use dilata_linalg::LinearSolver;
 
 /// A discrete system with a time derivative.
@@ -228,6 +228,7 @@ impl Integrator {
     ) -> Result<StepReport, StepError> {
         let mut dt = self.state.dt_next;
         let mut rejections = Vec::new();
+        let mut error_rejected = false;
         let n = self.state.x.len();
         let mut history = vec![0.0; n];
         loop {
@@ -253,7 +254,7 @@ impl Integrator {
             let rule = self.rate_coefficients_into(dt, order, &mut history);
             system.begin_step(t_new, rule.a0, &history);
             let mut x = self.predict(dt, order);
-            let attempt = newton(system, solver, &mut x, &self.params.newton);
+            let attempt = newton_in_step(system, solver, &mut x, &self.params.newton);
             let info = match attempt {
                 Ok(info) => info,
                 Err(e) => {
@@ -279,11 +280,22 @@ impl Integrator {
                         let factor = (a.safety * err.max(1e-10).powf(-1.0 / (k + 1.0)))
                             .clamp(0.2, a.max_growth);
                         if err > 1.0 {
+                            error_rejected = true;
                             rejections.push(format!("local error {err:.3} above tolerance"));
                             self.state.n_rejected += 1;
                             dt = (dt * factor.min(0.9)).max(0.0);
                             continue;
                         }
+                        // No growth right after a step rejected by its error estimate
+                        // (Hairer, Nørsett and Wanner, Solving ODEs I, 2nd ed., Springer 1993,
+                        // sec. II.4, from memory): the estimate has just rejected a step at
+                        // least `1/0.9` times this one. (A Newton failure says nothing about
+                        // the error, and its cut is a guess.)
+                        let factor = if error_rejected {
+                            factor.min(1.0)
+                        } else {
+                            factor
+                        };
                         (Some(err), (dt * factor).min(a.dt_max))
                     }
                 },

@@ -323,3 +323,65 @@ fn energy_change_bound_limits_every_step() {
     }
     assert!(bound_rejections > 0);
 }
+
+/// A step accepted after its error estimate rejected a longer one proposes no longer a next
+/// step (Hairer, Nørsett and Wanner, Solving ODEs I, sec. II.4, from memory); one accepted
+/// after a refused (Newton-failed) attempt may grow.
+#[test]
+fn no_growth_right_after_an_error_rejection() {
+    let a = AdaptiveParams {
+        dt_initial: 0.5,
+        dt_min: 1e-9,
+        dt_max: 10.0,
+        rtol: 1e-4,
+        atol: 1e-6,
+        safety: 0.9,
+        max_growth: 2.0,
+    };
+    let params = |sizing| IntegratorParams {
+        scheme: Scheme::Bdf2,
+        sizing,
+        newton: newton_params(),
+        cut_factor: 0.25,
+        dt_min: 1e-9,
+        energy: None,
+    };
+    let mut sys = Decay::new(vec![1.0]);
+    let mut solver = solver_for(&sys);
+    let mut integ = Integrator::new(params(StepSizing::Adaptive(a)), 0.0, sys.exact(0.0));
+    let mut seen = 0;
+    while integ.state.t < 20.0 {
+        sys.last_t = integ.state.t;
+        let report = integ.step(&mut sys, &mut solver, 20.0).unwrap();
+        let err = report.error.unwrap_or(0.0);
+        if report.rejections.iter().any(|r| r.contains("local error")) {
+            seen += 1;
+            assert!(
+                integ.state.dt_next <= report.dt,
+                "after an error rejection at t = {}: dt {} -> {}",
+                report.t,
+                report.dt,
+                integ.state.dt_next
+            );
+        } else if err > 0.0 && err < 0.5 * 0.9f64.powi(3) && integ.state.dt_next < 10.0 {
+            // Without a rejection the same error would have let the step grow.
+            assert!(integ.state.dt_next > report.dt);
+        }
+    }
+    assert!(seen > 0, "no step was rejected by its error estimate");
+    // A refused attempt (Newton failure) does not freeze the step: after the cut, the next
+    // step grows again.
+    let mut sys = Decay::new(vec![1.0]);
+    sys.max_dt = 0.3;
+    let mut integ = Integrator::new(params(StepSizing::Adaptive(a)), 0.0, sys.exact(0.0));
+    sys.last_t = 0.0;
+    let report = integ.step(&mut sys, &mut solver, 20.0).unwrap();
+    assert!(report.rejections.iter().all(|r| r.contains("refused")));
+    assert_eq!(report.rejections.len(), 1);
+    assert!(
+        integ.state.dt_next > report.dt,
+        "{} -> {}",
+        report.dt,
+        integ.state.dt_next
+    );
+}
