@@ -141,6 +141,33 @@ pub struct PointOutput {
     pub gradient_energy: f64,
 }
 
+/// What [`CoupledPointLaw::evaluate_unstrained`] gives: the parts of [`PointOutput`] that a
+/// body without displacement unknowns uses (same names, same values).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct UnstrainedOutput {
+    pub mu_local: f64,
+    pub dmu_dc: f64,
+    pub flux: Vector3<f64>,
+    pub dflux_dgrad_mu: Matrix3<f64>,
+    pub dflux_dc: Vector3<f64>,
+    pub kappa_grad_c: Vector3<f64>,
+    pub kappa: Matrix3<f64>,
+}
+
+impl From<&PointOutput> for UnstrainedOutput {
+    fn from(p: &PointOutput) -> Self {
+        UnstrainedOutput {
+            mu_local: p.mu_local,
+            dmu_dc: p.dmu_dc,
+            flux: p.flux,
+            dflux_dgrad_mu: p.dflux_dgrad_mu,
+            dflux_dc: p.dflux_dc,
+            kappa_grad_c: p.kappa_grad_c,
+            kappa: p.kappa,
+        }
+    }
+}
+
 /// Relative tolerance on equal temperatures (common practice, no source).
 const TEMPERATURE_TOLERANCE: f64 = 1e-12;
 
@@ -161,6 +188,57 @@ impl CoupledPointLaw {
     /// The four laws.
     pub fn parts(&self) -> &CoupledLawParts {
         &self.parts
+    }
+
+    /// [`Self::evaluate`] at zero strain, reduced to what the mass and potential rows of a body
+    /// without displacement unknowns use. Without swelling the stress vanishes there and the
+    /// potential is the chemical one, so the elastic parts are not formed (a phase-field run
+    /// without mechanics evaluates this at every point of every assembly); with swelling it is
+    /// `evaluate` itself. The values are those of `evaluate` (a zero elastic part is added to
+    /// the potential and its derivative as `evaluate` adds it).
+    #[inline(always)]
+    pub fn evaluate_unstrained(
+        &self,
+        c: f64,
+        grad_mu: Vector3<f64>,
+        grad_c: Vector3<f64>,
+    ) -> Result<UnstrainedOutput, RangeError> {
+        if self.parts.swelling.expansion().iter().any(|v| *v != 0.0) {
+            return self
+                .evaluate(&PointInput {
+                    strain: Voigt::zeros(),
+                    c,
+                    grad_mu,
+                    grad_c,
+                })
+                .map(|p| UnstrainedOutput::from(&p));
+        }
+        let non_finite = |quantity| RangeError::NonFinite {
+            law: RangeLaw::Input,
+            quantity,
+        };
+        if !c.is_finite() {
+            return Err(non_finite("concentration"));
+        }
+        if !grad_mu.iter().all(|v| v.is_finite()) {
+            return Err(non_finite("potential gradient"));
+        }
+        if !grad_c.iter().all(|v| v.is_finite()) {
+            return Err(non_finite("concentration gradient"));
+        }
+        let chem = self.parts.chemical.evaluate(c)?;
+        let mob = self.parts.mobility.evaluate(c)?;
+        // `evaluate` checks the stiffness law's range too.
+        self.parts.stiffness.check(c)?;
+        Ok(UnstrainedOutput {
+            mu_local: chem.mu + 0.0,
+            dmu_dc: chem.dmu_dc + 0.0,
+            flux: -(mob.mobility * grad_mu),
+            dflux_dgrad_mu: -mob.mobility,
+            dflux_dc: -(mob.dmobility_dc * grad_mu),
+            kappa_grad_c: self.parts.gradient.matrix() * grad_c,
+            kappa: *self.parts.gradient.matrix(),
+        })
     }
 
     /// Evaluate at one point. Non-finite input, or a concentration outside the range of any of

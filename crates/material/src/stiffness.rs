@@ -121,6 +121,20 @@ impl StiffnessLaw {
         StiffnessLaw { form }
     }
 
+    /// The error [`Self::evaluate`] gives at `c`, if any, without forming the stiffness (for
+    /// callers that need only the range check: a body without displacement unknowns).
+    #[inline]
+    pub fn check(&self, c: f64) -> Result<(), RangeError> {
+        match &self.form {
+            Form::Constant(_) => Ok(()),
+            Form::LinearYoung {
+                young_at_zero,
+                slope,
+                ..
+            } => linear_young(*young_at_zero, *slope, c).map(|_| ()),
+        }
+    }
+
     /// `C(c)` and its derivatives. The linear law is extrapolated linearly outside
     /// `[0, c_max]` and refuses concentrations where `E(c) ≤ 0`.
     #[inline]
@@ -136,24 +150,7 @@ impl StiffnessLaw {
                 young_at_zero,
                 slope,
             } => {
-                let young = young_at_zero + slope * c;
-                if !(young > 0.0 && young.is_finite()) {
-                    // E(c) > 0 on the side of c = 0 bounded by c = −E0/slope.
-                    let root = -young_at_zero / slope;
-                    let (lower, upper) = if *slope > 0.0 {
-                        (root, f64::INFINITY)
-                    } else if *slope < 0.0 {
-                        (f64::NEG_INFINITY, root)
-                    } else {
-                        (f64::NEG_INFINITY, f64::INFINITY)
-                    };
-                    return Err(RangeError::OutOfRange {
-                        law: RangeLaw::ConcentrationStiffness,
-                        c,
-                        lower,
-                        upper,
-                    });
-                }
+                let young = linear_young(*young_at_zero, *slope, c)?;
                 Ok(StiffnessState {
                     stiffness: unit * young,
                     dstiffness_dc: unit * *slope,
@@ -162,6 +159,30 @@ impl StiffnessLaw {
             }
         }
     }
+}
+
+/// `E(c) = E0 + slope c`, refused where it is not positive and finite.
+#[inline]
+fn linear_young(young_at_zero: f64, slope: f64, c: f64) -> Result<f64, RangeError> {
+    let young = young_at_zero + slope * c;
+    if !(young > 0.0 && young.is_finite()) {
+        // E(c) > 0 on the side of c = 0 bounded by c = −E0/slope.
+        let root = -young_at_zero / slope;
+        let (lower, upper) = if slope > 0.0 {
+            (root, f64::INFINITY)
+        } else if slope < 0.0 {
+            (f64::NEG_INFINITY, root)
+        } else {
+            (f64::NEG_INFINITY, f64::INFINITY)
+        };
+        return Err(RangeError::OutOfRange {
+            law: RangeLaw::ConcentrationStiffness,
+            c,
+            lower,
+            upper,
+        });
+    }
+    Ok(young)
 }
 
 #[cfg(test)]

@@ -5,7 +5,9 @@
 use dilata_material::chemical::{
     ChemicalLaw, DoubleWellParams, IdealDiluteParams, LatticeGasParams, GAS_CONSTANT,
 };
-use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw, PointInput, PointOutput};
+use dilata_material::coupled::{
+    CoupledLawParts, CoupledPointLaw, PointInput, PointOutput, UnstrainedOutput,
+};
 use dilata_material::elastic::{hydrostatic, Isotropic, Voigt};
 use dilata_material::error::{ParameterError, RangeError, RangeLaw};
 use dilata_material::gradient::GradientEnergy;
@@ -564,4 +566,58 @@ fn errors_are_typed() {
         CoupledPointLaw::new(parts),
         Err(ParameterError::TemperatureMismatch { .. })
     ));
+}
+
+/// The reduced evaluation of a body without displacement unknowns gives `evaluate`'s values at
+/// zero strain, bit for bit, with and without swelling (with swelling it is `evaluate`), and
+/// the same range errors, the stiffness law's included.
+#[test]
+fn unstrained_evaluation_is_the_full_one_at_zero_strain() {
+    let no_swelling = SwellingLaw::isotropic(IsotropicSwellingParams {
+        partial_molar_volume: 0.0,
+        c_ref: 0.0,
+    })
+    .unwrap();
+    let grad_mu = Vector3::new(120.0, -35.0, 8.0);
+    let grad_c = Vector3::new(3.0e8, 1.0e8, -2.0e8);
+    for chem in [Chem::Dilute, Chem::Lattice, Chem::DoubleWell] {
+        for stiff in [Stiff::Constant, Stiff::LinearYoung] {
+            for mob in [Mob::Matching, Mob::Constant] {
+                let swelling_law = law(chem, Swell::Tensor, stiff, mob);
+                let mut parts = *swelling_law.parts();
+                parts.swelling = no_swelling;
+                parts.gradient = GradientEnergy::isotropic(2.0e-12).unwrap();
+                let plain = CoupledPointLaw::new(parts).unwrap();
+                for l in [&swelling_law, &plain] {
+                    for c in [800.0, 6.0e3, 1.5e4] {
+                        let full = l
+                            .evaluate(&PointInput {
+                                strain: Voigt::zeros(),
+                                c,
+                                grad_mu,
+                                grad_c,
+                            })
+                            .unwrap();
+                        let reduced = l.evaluate_unstrained(c, grad_mu, grad_c).unwrap();
+                        assert_eq!(reduced, UnstrainedOutput::from(&full), "{chem:?} {c}");
+                    }
+                }
+                // Out of range: the same error (the linear stiffness turns negative beyond
+                // c = 2 c_max; the dilute laws refuse c < 0).
+                for c in [-5.0, 3.0 * C_MAX, f64::NAN] {
+                    let full = plain.evaluate(&PointInput {
+                        strain: Voigt::zeros(),
+                        c,
+                        grad_mu,
+                        grad_c,
+                    });
+                    let reduced = plain.evaluate_unstrained(c, grad_mu, grad_c);
+                    assert_eq!(reduced.is_err(), full.is_err(), "{chem:?} {stiff:?} {c}");
+                    if let (Err(a), Err(b)) = (reduced, full) {
+                        assert_eq!(a.to_string(), b.to_string());
+                    }
+                }
+            }
+        }
+    }
 }
