@@ -135,8 +135,8 @@ fn serial_and_parallel_assembly_agree_bit_for_bit() {
 
 /// The scatter through the per-cell entry table writes the same bits as the scatter that
 /// searches each CSR row (every entry gets its additions in the same order), with constrained
-/// DOFs too; the table exists for the cells with at least 12 DOFs (Tri6 and Hex20 vectors
-/// here) and not for the 8-DOF Quad4 cells. Common practice, no source.
+/// DOFs too; the table exists for the cells with at least 8 DOFs (Tri6, Quad4 and Hex20
+/// vectors here). Common practice, no source.
 #[test]
 fn entry_table_scatter_is_the_searching_scatter() {
     let mut with_table = 0;
@@ -146,14 +146,14 @@ fn entry_table_scatter_is_the_searching_scatter() {
             let ((m2, v2, _), dropped) = assemble_with(mesh, *mode, par, false);
             assert!(!dropped);
             let n_loc = mesh.blocks[0].kind.n_nodes() * mesh.dim;
-            assert_eq!(table, n_loc >= 12, "{:?}", mesh.blocks[0].kind);
+            assert_eq!(table, n_loc >= 8, "{:?}", mesh.blocks[0].kind);
             with_table += usize::from(table);
             assert_eq!(bits(&m1), bits(&m2), "matrix ({mode:?}, {par:?})");
             assert_eq!(bits(&v1), bits(&v2), "vector ({mode:?}, {par:?})");
         }
     }
     assert_eq!(
-        with_table, 4,
-        "two meshes with the table, two thread settings each"
+        with_table, 6,
+        "three meshes with the table, two thread settings each"
     );
 }

@@ -129,10 +129,12 @@ struct EntryTable {
 
 /// Fewest DOFs per cell for which [`EntryTable`] is built. Measured (`fe_problems` and the
 /// coupled benchmarks, docs/performance.md): no gain over the searching scatter with 4 DOFs
-/// per cell (2D Poisson Q1) or 8 (the spinodal benchmark's `c`, `μ` on quad4), 20–35 % less
-/// assembly time with 12 (Tet4 elasticity), within the noise with 24 (Hex8 elasticity), about
-/// 14 % less with 32 (the axisymmetric particle's quad8 coupled cells).
-const ENTRY_TABLE_MIN_DOFS: usize = 12;
+/// per cell (2D Poisson Q1), 20–35 % less assembly time with 12 (Tet4 elasticity), within the
+/// noise with 24 (Hex8 elasticity), about 14 % less with 32 (the axisymmetric particle's quad8
+/// coupled cells). With 8 (the spinodal benchmark's `c`, `μ` on quad4) no gain at first; once
+/// its kernel had become cheaper (2026-12-03), a Jacobian pass took 33–37 ms instead of
+/// 38–41 ms on one thread (best of 100, alternating), 20–24 ms instead of 22–23.5 ms on two.
+const ENTRY_TABLE_MIN_DOFS: usize = 8;
 
 /// Checksum of the DOFs of every cell, in cell order (see [`EntryTable::fingerprint`]).
 fn dof_fingerprint(mesh: &Mesh, dofs: &DofMap) -> u64 {
@@ -239,7 +241,7 @@ impl Assembler {
     }
 
     /// Whether the matrix scatter uses the per-cell entry table (built when the cells have at
-    /// least 12 DOFs and the table is not larger than twice the matrix values; see
+    /// least 8 DOFs and the table is not larger than twice the matrix values; see
     /// `ENTRY_TABLE_MIN_DOFS` in the source).
     pub fn has_entry_table(&self) -> bool {
         self.entries.is_some()

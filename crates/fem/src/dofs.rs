@@ -277,6 +277,7 @@ impl DofMap {
     }
 
     /// Local DOFs of a cell (all fields).
+    #[inline]
     pub fn cell_dofs(&self, cell: usize) -> &[usize] {
         &self.cell_dofs[self.cell_ptr[cell]..self.cell_ptr[cell + 1]]
     }

@@ -84,16 +84,19 @@ pub struct SpaceValues {
 
 impl SpaceValues {
     /// Shape values at quadrature point `q`.
+    #[inline]
     pub fn values(&self, q: usize) -> &[f64] {
         self.table.values_at(q)
     }
 
     /// Physical shape gradients at quadrature point `q`.
+    #[inline]
     pub fn grads(&self, q: usize) -> &[[f64; 3]] {
         let n = self.table.n_nodes;
         &self.grads[q * n..(q + 1) * n]
     }
 
+    #[inline]
     pub fn n_nodes(&self) -> usize {
         self.table.n_nodes
     }

@@ -38,6 +38,7 @@ impl CsrPattern {
     }
 
     /// Column indices of row `i`.
+    #[inline]
     pub fn row(&self, i: usize) -> &[usize] {
         &self.col_idx[self.row_ptr[i]..self.row_ptr[i + 1]]
     }

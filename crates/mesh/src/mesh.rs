@@ -26,6 +26,7 @@ impl CellBlock {
     }
 
     /// Nodes of cell `i` of this block.
+    #[inline]
     pub fn cell(&self, i: usize) -> &[usize] {
         let n = self.kind.n_nodes();
         &self.connectivity[i * n..(i + 1) * n]
@@ -69,6 +70,7 @@ impl Mesh {
     }
 
     /// Block index and index within the block of a global cell id.
+    #[inline]
     pub fn locate_cell(&self, cell: usize) -> (usize, usize) {
         let mut first = 0;
         for (b, block) in self.blocks.iter().enumerate() {
@@ -85,6 +87,7 @@ impl Mesh {
     }
 
     /// Kind and nodes of a global cell id.
+    #[inline]
     pub fn cell(&self, cell: usize) -> (CellKind, &[usize]) {
         let (b, i) = self.locate_cell(cell);
         (self.blocks[b].kind, self.blocks[b].cell(i))

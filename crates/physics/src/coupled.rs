@@ -32,10 +32,11 @@ use dilata_fem::{
     CellInput, CellKernel, FacetInput, FacetKernel, FieldHandle, GeometryMode, InvertedCell,
     LocalOutput,
 };
-use dilata_material::coupled::{CoupledPointLaw, PointInput};
+use dilata_material::coupled::{CoupledPointLaw, PointInput, UnstrainedOutput};
 use dilata_material::elastic::Voigt;
 use dilata_material::error::RangeError;
 use dilata_material::finite::FiniteLaw;
+use dilata_mesh::CellKind;
 use nalgebra::Vector3;
 
 use crate::cellcache::{stiffness_degree, CellValuesCache};
@@ -250,6 +251,19 @@ impl LocalValues {
     ) -> ScalarsAt {
         let (gc, vc) = (sc.grads(q), sc.values(q));
         let (gm, vm) = (sm.grads(q), sm.values(q));
+        self.scalars_from(vc, gc, vm, gm, with_grad_c)
+    }
+
+    /// [`Self::scalars_at`] from the two spaces' values and gradients at the point.
+    #[inline(always)]
+    pub(crate) fn scalars_from(
+        &self,
+        vc: &[f64],
+        gc: &[[f64; 3]],
+        vm: &[f64],
+        gm: &[[f64; 3]],
+        with_grad_c: bool,
+    ) -> ScalarsAt {
         let c: f64 = vc.iter().zip(&self.c).map(|(n, v)| n * v).sum();
         let c_dot: f64 = vc.iter().zip(&self.c_rate).map(|(n, v)| n * v).sum();
         let mu: f64 = vm.iter().zip(&self.mu).map(|(n, v)| n * v).sum();
@@ -286,11 +300,13 @@ pub(crate) struct ScalarTerms {
     pub kappa: nalgebra::Matrix3<f64>,
 }
 
-/// Where the scalar rows of one cell go, and the point they are integrated at.
+/// Where the scalar rows of one cell go, and the point they are integrated at: the `c`
+/// space's values and gradients and the `μ` space's gradients there (slices of a constant
+/// length where the caller knows it, so that the loops below unroll).
 pub(crate) struct ScalarRows<'s> {
-    pub sc: &'s SpaceValues,
-    pub sm: &'s SpaceValues,
-    pub q: usize,
+    pub vc: &'s [f64],
+    pub gc: &'s [[f64; 3]],
+    pub gm: &'s [[f64; 3]],
     pub w: f64,
     pub rc: std::ops::Range<usize>,
     pub rm: std::ops::Range<usize>,
@@ -301,9 +317,9 @@ pub(crate) struct ScalarRows<'s> {
 impl ScalarRows<'_> {
     /// Residual of the mass rows `N_a (ċ − s) − grad N_a · J` and the gradient part
     /// `− grad N_a · κ grad c` of the potential rows (the caller adds `N_a π`).
+    #[inline(always)]
     pub(crate) fn residual(&self, fe: &mut [f64], t: &ScalarTerms, c_dot: f64, src: f64) {
-        let (gc, vc) = (self.sc.grads(self.q), self.sc.values(self.q));
-        let gm = self.sm.grads(self.q);
+        let (gc, vc, gm) = (self.gc, self.vc, self.gm);
         for a in 0..vc.len() {
             let gj = gc[a][0] * t.flux[0] + gc[a][1] * t.flux[1] + gc[a][2] * t.flux[2];
             fe[self.rc.start + a] += (vc[a] * (c_dot - src) - gj) * self.w;
@@ -317,10 +333,10 @@ impl ScalarRows<'_> {
 
     /// Tangent of the mass rows by `c` and `μ`, and of the gradient part of the potential rows
     /// by `c` (when `with_gradient`).
+    #[inline(always)]
     pub(crate) fn tangent(&self, ke: &mut [f64], t: &ScalarTerms, with_gradient: bool) {
         let at = |row: usize, col: usize| row * self.n_loc + col;
-        let (gc, vc) = (self.sc.grads(self.q), self.sc.values(self.q));
-        let gm = self.sm.grads(self.q);
+        let (gc, vc, gm) = (self.gc, self.vc, self.gm);
         let w = self.w;
         for a in 0..vc.len() {
             let row = &mut ke[at(self.rc.start + a, 0)..at(self.rc.start + a + 1, 0)];
@@ -355,11 +371,20 @@ impl ScalarRows<'_> {
 }
 
 impl CoupledKernel<'_> {
-    /// Copy the cell's `u`, `c`, rate `a0 c + h` and `μ` values into the scratch.
-    pub(crate) fn gather(&self, input: &CellInput<'_>, s: &mut CoupledScratch) {
-        let ru = self.dofs.local_range(self.fields.u, input.kind);
-        let rc = self.dofs.local_range(self.fields.c, input.kind);
-        let rm = self.dofs.local_range(self.fields.mu, input.kind);
+    /// The ranges of `u`, `c` and `μ` in the local DOF vector of a cell of `kind`.
+    pub(crate) fn local_ranges(&self, kind: CellKind) -> [std::ops::Range<usize>; 3] {
+        [self.fields.u, self.fields.c, self.fields.mu].map(|f| self.dofs.local_range(f, kind))
+    }
+
+    /// Copy the cell's `u`, `c`, rate `a0 c + h` and `μ` values into the scratch (`ranges`
+    /// from [`Self::local_ranges`]).
+    pub(crate) fn gather(
+        &self,
+        input: &CellInput<'_>,
+        ranges: &[std::ops::Range<usize>; 3],
+        s: &mut CoupledScratch,
+    ) {
+        let [ru, rc, rm] = ranges.clone();
         let gather =
             |range: std::ops::Range<usize>, into: &mut Vec<f64>, f: &dyn Fn(usize) -> f64| {
                 into.clear();
@@ -407,15 +432,33 @@ impl CellKernel for CoupledKernel<'_> {
         // a run whose `u` field has no components), so that its small loops unroll. The
         // arithmetic and its order are the same for every instance.
         // The structural zeros of `B` (`StrainRows`) are skipped; they contributed exact zeros.
+        // The scalar spaces' node count as a constant too when `c` and `μ` share it and it is
+        // that of a common cell (tri3, quad4 and tet4, quad8 and hex8, quad9); 0: any.
+        let ns = match (
+            self.dofs.space_kind(self.fields.c, input.kind).n_nodes(),
+            self.dofs.space_kind(self.fields.mu, input.kind).n_nodes(),
+        ) {
+            (n, m) if n == m && matches!(n, 3 | 4 | 8 | 9) => n,
+            _ => 0,
+        };
+        macro_rules! by_nodes {
+            ($nc:literal, $nk:literal, $rows:ty) => {
+                match ns {
+                    3 => self.cell_points::<$nc, $nk, $rows, 3>(input, s, out),
+                    4 => self.cell_points::<$nc, $nk, $rows, 4>(input, s, out),
+                    8 => self.cell_points::<$nc, $nk, $rows, 8>(input, s, out),
+                    9 => self.cell_points::<$nc, $nk, $rows, 9>(input, s, out),
+                    _ => self.cell_points::<$nc, $nk, $rows, 0>(input, s, out),
+                }
+            };
+        }
         match (self.dofs.spec(self.fields.u).n_components, self.mode) {
-            (0, _) => self.cell_points::<0, 0, PlaneRows>(input, s, out),
-            (3, GeometryMode::ThreeD) => self.cell_points::<3, 6, SolidRows>(input, s, out),
+            (0, _) => by_nodes!(0, 0, PlaneRows),
+            (3, GeometryMode::ThreeD) => by_nodes!(3, 6, SolidRows),
             (2, GeometryMode::PlaneStrain | GeometryMode::PlaneStress) => {
-                self.cell_points::<2, 4, PlaneRows>(input, s, out)
+                by_nodes!(2, 4, PlaneRows)
             }
-            (2, GeometryMode::Axisymmetric) => {
-                self.cell_points::<2, 4, AxisymmetricRows>(input, s, out)
-            }
+            (2, GeometryMode::Axisymmetric) => by_nodes!(2, 4, AxisymmetricRows),
             (nc, mode) => unreachable!("{nc} displacement components in mode {mode:?}"),
         }
     }
@@ -427,13 +470,14 @@ impl CoupledKernel<'_> {
     /// `B` per component from `P`. Sums run over those rows in increasing order: the products
     /// left out are exact zeros, so the sums are the ones over all rows.
     #[inline(always)]
-    fn cell_points<const NC: usize, const NK: usize, P: StrainRows>(
+    fn cell_points<const NC: usize, const NK: usize, P: StrainRows, const NS: usize>(
         &self,
         input: &CellInput<'_>,
         s: &mut CoupledScratch,
         out: LocalOutput<'_>,
     ) -> Result<(), CoupledError> {
-        self.gather(input, s);
+        let [ru, rc, rm] = self.local_ranges(input.kind);
+        self.gather(input, &[ru.clone(), rc.clone(), rm.clone()], s);
         let CoupledScratch {
             cache,
             local,
@@ -444,12 +488,14 @@ impl CoupledKernel<'_> {
         let s = &*local;
         let cv = cache.get(input.kind);
         cv.reinit(input.id, input.coords)?;
-        let ru = self.dofs.local_range(self.fields.u, input.kind);
-        let rc = self.dofs.local_range(self.fields.c, input.kind);
-        let rm = self.dofs.local_range(self.fields.mu, input.kind);
         let n_loc = input.dofs.len();
         let (su, sc, sm) = (&cv.spaces[0], &cv.spaces[1], &cv.spaces[2]);
-        let (ncn, nmn) = (sc.n_nodes(), sm.n_nodes());
+        let (ncn, nmn) = if NS > 0 {
+            (NS, NS)
+        } else {
+            (sc.n_nodes(), sm.n_nodes())
+        };
+        debug_assert_eq!((ncn, nmn), (sc.n_nodes(), sm.n_nodes()));
         // Displacement nodes with unknowns (none in a run without mechanics).
         let nu_m = if NC == 0 { 0 } else { su.n_nodes() };
         let LocalOutput {
@@ -462,8 +508,13 @@ impl CoupledKernel<'_> {
             let w = cv.jxw[q];
             let r = cv.points[q][0];
             let (gu, vu) = (su.grads(q), su.values(q));
-            let vc = sc.values(q);
-            let vm = sm.values(q);
+            // The scalar spaces' values and gradients, of length `NS` when it is not 0.
+            let (vc, gc, vm, gm) = (sc.values(q), sc.grads(q), sm.values(q), sm.grads(q));
+            let (vc, gc, vm, gm) = if NS > 0 {
+                (&vc[..NS], &gc[..NS], &vm[..NS], &gm[..NS])
+            } else {
+                (vc, gc, vm, gm)
+            };
             let mut strain = Voigt::zeros();
             for a in 0..nu_m {
                 let b = node_b(self.mode, gu[a], vu[a], r);
@@ -473,23 +524,33 @@ impl CoupledKernel<'_> {
                     }
                 }
             }
-            let at_q = s.scalars_at(sc, sm, q, has_gradient);
-            let p = law
-                .evaluate(&PointInput {
-                    strain,
-                    c: at_q.c,
-                    grad_mu: at_q.grad_mu,
-                    grad_c: at_q.grad_c,
-                })
-                .map_err(|source| CoupledError::Range {
-                    cell: input.id,
-                    point: q,
-                    source,
-                })?;
+            let at_q = s.scalars_from(vc, gc, vm, gm, has_gradient);
+            let range = |source| CoupledError::Range {
+                cell: input.id,
+                point: q,
+                source,
+            };
+            // Without displacement unknowns the strain is zero: the reduced evaluation.
+            let (sp, p) = if NC == 0 {
+                let sp = law
+                    .evaluate_unstrained(at_q.c, at_q.grad_mu, at_q.grad_c)
+                    .map_err(range)?;
+                (sp, None)
+            } else {
+                let p = law
+                    .evaluate(&PointInput {
+                        strain,
+                        c: at_q.c,
+                        grad_mu: at_q.grad_mu,
+                        grad_c: at_q.grad_c,
+                    })
+                    .map_err(range)?;
+                (UnstrainedOutput::from(&p), Some(p))
+            };
             let rows = ScalarRows {
-                sc,
-                sm,
-                q,
+                vc,
+                gc,
+                gm,
                 w,
                 rc: rc.clone(),
                 rm: rm.clone(),
@@ -497,15 +558,16 @@ impl CoupledKernel<'_> {
                 a0: self.rate.a0,
             };
             let terms = ScalarTerms {
-                flux: p.flux,
-                dflux_dc: p.dflux_dc,
-                dflux_dgrad_mu: p.dflux_dgrad_mu,
-                kappa_grad_c: p.kappa_grad_c,
-                kappa: p.kappa,
+                flux: sp.flux,
+                dflux_dc: sp.dflux_dc,
+                dflux_dgrad_mu: sp.dflux_dgrad_mu,
+                kappa_grad_c: sp.kappa_grad_c,
+                kappa: sp.kappa,
             };
             if let Some(fe) = vector.as_deref_mut() {
                 let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
                 for a in 0..nu_m {
+                    let p = p.as_ref().expect("evaluated with the strain when NC > 0");
                     let ba = node_b(self.mode, gu[a], vu[a], r);
                     for i in 0..NC {
                         let mut v = 0.0;
@@ -519,12 +581,12 @@ impl CoupledKernel<'_> {
                 rows.residual(fe, &terms, at_q.c_dot, src);
                 let g = self.potential_source.map_or(0.0, |f| f(cv.points[q]));
                 for a in 0..nmn {
-                    fe[rm.start + a] += vm[a] * (at_q.mu - p.mu_local - g) * w;
+                    fe[rm.start + a] += vm[a] * (at_q.mu - sp.mu_local - g) * w;
                 }
             }
             if let Some(ke) = matrix.as_deref_mut() {
                 let at = |row: usize, col: usize| row * n_loc + col;
-                if NC > 0 {
+                if let Some(p) = p.as_ref() {
                     // B_b, C B_b and (∂μ/∂ε) B_b once per node and point.
                     b_all.clear();
                     cb_all.clear();
@@ -581,7 +643,7 @@ impl CoupledKernel<'_> {
                             }
                         }
                     }
-                    let vd = va * p.dmu_dc;
+                    let vd = va * sp.dmu_dc;
                     for (k, &vb) in row[rc.start..rc.start + ncn].iter_mut().zip(vc) {
                         *k -= vd * vb * w;
                     }

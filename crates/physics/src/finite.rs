@@ -88,14 +88,12 @@ pub(crate) fn finite_cell_into(
     s: &mut CoupledScratch,
     out: LocalOutput<'_>,
 ) -> Result<(), CoupledError> {
-    k.gather(input, s);
+    let [ru, rc, rm] = k.local_ranges(input.kind);
+    k.gather(input, &[ru.clone(), rc.clone(), rm.clone()], s);
     let CoupledScratch { cache, local, .. } = s;
     let cv = cache.get(input.kind);
     cv.reinit(input.id, input.coords)?;
     let nc = k.dofs.spec(k.fields.u).n_components;
-    let ru = k.dofs.local_range(k.fields.u, input.kind);
-    let rc = k.dofs.local_range(k.fields.c, input.kind);
-    let rm = k.dofs.local_range(k.fields.mu, input.kind);
     let n_loc = input.dofs.len();
     let (su, sc, sm) = (&cv.spaces[0], &cv.spaces[1], &cv.spaces[2]);
     let (nu, ncn, nmn) = (su.n_nodes(), sc.n_nodes(), sm.n_nodes());
@@ -131,9 +129,9 @@ pub(crate) fn finite_cell_into(
         dfs.extend((0..nu).map(|a| node_df(k.mode, gu[a], vu[a], r)));
         let p_flat = SVector::<f64, 9>::from_row_slice(p.stress.transpose().as_slice());
         let rows = ScalarRows {
-            sc,
-            sm,
-            q,
+            vc,
+            gc: sc.grads(q),
+            gm: sm.grads(q),
             w,
             rc: rc.clone(),
             rm: rm.clone(),
