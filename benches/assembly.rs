@@ -2,8 +2,9 @@
 //! square (90 601 DOFs) and one P1 elasticity assembly on a 16³ unit cube of Tet4 (14 739 DOFs),
 //! matrix only; and the coupled deformation–diffusion kernel on the mesh of the charging-particle
 //! benchmark (axisymmetric quarter disc of quad8, quadratic `u`, `c` and `μ`, 21 316 DOFs, a
-//! lattice-gas host), Jacobian with residual and residual alone; each on the calling thread and
-//! on a 2-thread pool. Run with
+//! lattice-gas host) and on the spinodal benchmark's (200 × 200 quad4, linear `c` and `μ`, no
+//! mechanics, 80 802 DOFs), Jacobian with residual and residual alone; each on the calling
+//! thread and on a 2-thread pool. Run with
 //! `cargo bench --bench assembly`. Whole-process comparisons against the peer live in
 //! `benches/fe_problems.rs` and `bench/run_all.sh`.
 
@@ -204,31 +205,115 @@ fn coupled_axisym(c: &mut Criterion) {
         potential_source: None,
         solution: &x,
     };
-    let mut group = c.benchmark_group("assembly_coupled_axisym_quad8");
+    coupled_group(c, "assembly_coupled_axisym_quad8", &mesh, &dofs, &kernel);
+}
+
+/// Jacobian-with-residual and residual-only passes of a coupled kernel, 1 and 2 threads.
+fn coupled_group(
+    c: &mut Criterion,
+    name: &str,
+    mesh: &Mesh,
+    dofs: &DofMap,
+    kernel: &dilata_physics::coupled::CoupledKernel<'_>,
+) {
+    let mut group = c.benchmark_group(name);
     group.sample_size(20);
     group.throughput(Throughput::Elements(dofs.n_dofs() as u64));
     for (name, par) in settings() {
-        let assembler = Assembler::build(&mesh, &dofs, par);
+        let assembler = Assembler::build(mesh, dofs, par);
         let mut k = assembler.build_matrix();
         let mut r = vec![0.0; dofs.n_dofs()];
         group.bench_function(BenchmarkId::new("jacobian", name), |b| {
-            b.iter(|| {
-                assemble_once(
-                    &assembler,
-                    &mesh,
-                    &dofs,
-                    &kernel,
-                    Some(&mut k),
-                    Some(&mut r),
-                )
-            })
+            b.iter(|| assemble_once(&assembler, mesh, dofs, kernel, Some(&mut k), Some(&mut r)))
         });
         group.bench_function(BenchmarkId::new("residual", name), |b| {
-            b.iter(|| assemble_once(&assembler, &mesh, &dofs, &kernel, None, Some(&mut r)))
+            b.iter(|| assemble_once(&assembler, mesh, dofs, kernel, None, Some(&mut r)))
         });
     }
     group.finish();
 }
 
-criterion_group!(benches, poisson_q1, elasticity_p1, coupled_axisym);
+/// The coupled kernel without mechanics on the spinodal benchmark's mesh and law (200 × 200
+/// quad4, linear `c` and `μ`, 80 802 DOFs; double well, gradient energy, constant mobility), at
+/// a state with gradients in both fields.
+fn coupled_spinodal(c: &mut Criterion) {
+    use dilata_material::chemical::{ChemicalLaw, DoubleWellParams};
+    use dilata_material::coupled::{CoupledLawParts, CoupledPointLaw};
+    use dilata_material::gradient::GradientEnergy;
+    use dilata_material::mobility::MobilityLaw;
+    use dilata_material::stiffness::StiffnessLaw;
+    use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
+    use dilata_physics::coupled::{CoupledFields, CoupledKernel, LawMap, RateTerm};
+
+    let mesh = rectangle(&RectangleParams {
+        origin: [0.0, 0.0],
+        lengths: [200.0, 200.0],
+        n_cells: [200, 200],
+        kind: CellKind::Quad4,
+    })
+    .expect("mesh");
+    let dofs = DofMap::build(
+        &mesh,
+        &[
+            FieldSpec::vector("u", 0, 1),
+            FieldSpec::scalar("c", 1),
+            FieldSpec::scalar("mu", 1),
+        ],
+    )
+    .expect("dofs");
+    let fields = CoupledFields {
+        u: dofs.field("u").expect("u"),
+        c: dofs.field("c").expect("c"),
+        mu: dofs.field("mu").expect("mu"),
+    };
+    // As `dilata run` builds a law without mechanics (crates/run/src/model.rs).
+    let law = CoupledPointLaw::new(CoupledLawParts {
+        stiffness: StiffnessLaw::isotropic(Isotropic::new(1.0, 0.0).expect("moduli")),
+        swelling: SwellingLaw::isotropic(IsotropicSwellingParams {
+            partial_molar_volume: 0.0,
+            c_ref: 0.0,
+        })
+        .expect("swelling"),
+        chemical: ChemicalLaw::double_well(DoubleWellParams {
+            height: 5.0,
+            c_a: 0.3,
+            c_b: 0.7,
+        })
+        .expect("chemical"),
+        mobility: MobilityLaw::constant(nalgebra::Matrix3::identity() * 5.0).expect("mobility"),
+        gradient: GradientEnergy::isotropic(2.0).expect("gradient"),
+    })
+    .expect("law");
+    let laws = LawMap::uniform(law, mesh.n_cells());
+    let mut x = vec![0.0; dofs.n_dofs()];
+    for (node, p) in mesh.points.iter().enumerate() {
+        x[dofs.node_dof(fields.c, node, 0).expect("c")] =
+            0.5 + 0.01 * (0.105 * p[0]).cos() * (0.11 * p[1]).cos();
+        x[dofs.node_dof(fields.mu, node, 0).expect("mu")] = 0.1 * (0.05 * p[0]).sin();
+    }
+    let history: Vec<f64> = x.iter().map(|v| -v / 10.0).collect();
+    let kernel = CoupledKernel {
+        dofs: &dofs,
+        fields,
+        mode: GeometryMode::PlaneStrain,
+        laws: &laws,
+        rate: RateTerm {
+            a0: 0.1,
+            history: &history,
+        },
+        source: None,
+        body_force: None,
+        potential_source: None,
+        solution: &x,
+    };
+    coupled_group(c, "assembly_coupled_spinodal_quad4", &mesh, &dofs, &kernel);
+}
+
+criterion_group!(
+    benches,
+    poisson_q1,
+    elasticity_p1,
+    coupled_axisym,
+    coupled_spinodal
+);
 criterion_main!(benches);
