@@ -263,7 +263,7 @@ impl ChemicalLaw {
     }
 
     /// ψ_chem, μ_chem and dμ_chem/dc at `c` (mol/m³), or a recoverable [`RangeError`].
-    #[inline]
+    #[inline(always)]
     pub fn evaluate(&self, c: f64) -> Result<ChemicalState, RangeError> {
         match self {
             ChemicalLaw::IdealDilute(l) => l.evaluate(c),

@@ -152,6 +152,9 @@ pub struct UnstrainedOutput {
     pub dflux_dc: Vector3<f64>,
     pub kappa_grad_c: Vector3<f64>,
     pub kappa: Matrix3<f64>,
+    pub elastic_energy: f64,
+    pub chemical_energy: f64,
+    pub gradient_energy: f64,
 }
 
 impl From<&PointOutput> for UnstrainedOutput {
@@ -164,6 +167,9 @@ impl From<&PointOutput> for UnstrainedOutput {
             dflux_dc: p.dflux_dc,
             kappa_grad_c: p.kappa_grad_c,
             kappa: p.kappa,
+            elastic_energy: p.elastic_energy,
+            chemical_energy: p.chemical_energy,
+            gradient_energy: p.gradient_energy,
         }
     }
 }
@@ -190,8 +196,8 @@ impl CoupledPointLaw {
         &self.parts
     }
 
-    /// [`Self::evaluate`] at zero strain, reduced to what the mass and potential rows of a body
-    /// without displacement unknowns use. Without swelling the stress vanishes there and the
+    /// [`Self::evaluate`] at zero strain, reduced to what the mass and potential rows and the
+    /// energy integrals of a body without displacement unknowns use. Without swelling the stress vanishes there and the
     /// potential is the chemical one, so the elastic parts are not formed (a phase-field run
     /// without mechanics evaluates this at every point of every assembly); with swelling it is
     /// `evaluate` itself. The values are those of `evaluate` (a zero elastic part is added to
@@ -238,6 +244,10 @@ impl CoupledPointLaw {
             dflux_dc: -(mob.dmobility_dc * grad_mu),
             kappa_grad_c: self.parts.gradient.matrix() * grad_c,
             kappa: *self.parts.gradient.matrix(),
+            // No strain and no swelling: `evaluate`'s elastic energy is exactly zero.
+            elastic_energy: 0.0,
+            chemical_energy: chem.free_energy,
+            gradient_energy: self.parts.gradient.energy(&grad_c),
         })
     }
 

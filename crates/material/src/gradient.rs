@@ -60,16 +60,19 @@ impl GradientEnergy {
     }
 
     /// The tensor `κ`.
+    #[inline]
     pub fn matrix(&self) -> &Matrix3<f64> {
         &self.kappa
     }
 
     /// `true` when `κ = 0`.
+    #[inline]
     pub fn is_zero(&self) -> bool {
         self.kappa.iter().all(|&v| v == 0.0)
     }
 
     /// `ψ_grad = ½ g · κ g` for `g = grad c`.
+    #[inline]
     pub fn energy(&self, grad_c: &Vector3<f64>) -> f64 {
         0.5 * grad_c.dot(&(self.kappa * grad_c))
     }

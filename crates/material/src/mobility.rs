@@ -165,7 +165,7 @@ impl MobilityLaw {
 
     /// `M(c)` and `dM/dc` at `c` (mol/m³). The concentration-dependent forms refuse
     /// concentrations where `M` would be indefinite (closed intervals, see [`RangeLaw`]).
-    #[inline]
+    #[inline(always)]
     pub fn evaluate(&self, c: f64) -> Result<MobilityState, RangeError> {
         match &self.form {
             Form::Dilute(p) => {
