@@ -133,7 +133,7 @@ fn coupled_axisym(c: &mut Criterion) {
     use dilata_material::mobility::{Diffusivity, LatticeGasMobilityParams, MobilityLaw};
     use dilata_material::stiffness::StiffnessLaw;
     use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
-    use dilata_physics::coupled::{CoupledFields, CoupledKernel, LawMap, RateTerm};
+    use dilata_physics::coupled::LawMap;
 
     let radius = 5e-6;
     let mesh = quarter_disc(&DiscParams {
@@ -142,20 +142,7 @@ fn coupled_axisym(c: &mut Criterion) {
         kind: CellKind::Quad8,
     })
     .expect("mesh");
-    let dofs = DofMap::build(
-        &mesh,
-        &[
-            FieldSpec::vector("u", 2, 2),
-            FieldSpec::scalar("c", 2),
-            FieldSpec::scalar("mu", 2),
-        ],
-    )
-    .expect("dofs");
-    let fields = CoupledFields {
-        u: dofs.field("u").expect("u"),
-        c: dofs.field("c").expect("c"),
-        mu: dofs.field("mu").expect("mu"),
-    };
+    let (dofs, fields) = coupled_dofs(&mesh, 2, 2);
     let (c_max, temperature) = (2.4e4, 298.15);
     let law = CoupledPointLaw::new(CoupledLawParts {
         stiffness: StiffnessLaw::isotropic(Isotropic::new(80e9, 0.3).expect("moduli")),
@@ -190,12 +177,69 @@ fn coupled_axisym(c: &mut Criterion) {
         x[dofs.node_dof(fields.c, node, 0).expect("c")] = 1200.0 * (1.0 + s * s + 0.5 * t);
         x[dofs.node_dof(fields.mu, node, 0).expect("mu")] = 1e3 * (s - t * t);
     }
-    let history: Vec<f64> = x.iter().map(|v| -v / 10.0).collect();
-    let kernel = CoupledKernel {
+    let kernel = Coupled {
+        mesh: &mesh,
         dofs: &dofs,
-        fields,
         mode: GeometryMode::Axisymmetric,
         laws: &laws,
+        x: &x,
+    };
+    coupled_group(c, "assembly_coupled_axisym_quad8", &kernel);
+}
+
+/// DOF map of `u` (`u_components`, 0 without mechanics), `c` and `μ`, all of one order.
+fn coupled_dofs(
+    mesh: &Mesh,
+    u_components: usize,
+    order: usize,
+) -> (DofMap, dilata_physics::coupled::CoupledFields) {
+    let dofs = DofMap::build(
+        mesh,
+        &[
+            FieldSpec::vector("u", u_components, order),
+            FieldSpec::scalar("c", order),
+            FieldSpec::scalar("mu", order),
+        ],
+    )
+    .expect("dofs");
+    let fields = dilata_physics::coupled::CoupledFields {
+        u: dofs.field("u").expect("u"),
+        c: dofs.field("c").expect("c"),
+        mu: dofs.field("mu").expect("mu"),
+    };
+    (dofs, fields)
+}
+
+/// A coupled problem at one state: the kernel is built around `x` with the rate term
+/// `a0 = 0.1`, history `−x/10`.
+struct Coupled<'a> {
+    mesh: &'a Mesh,
+    dofs: &'a DofMap,
+    mode: GeometryMode,
+    laws: &'a dilata_physics::coupled::LawMap,
+    x: &'a [f64],
+}
+
+/// Jacobian-with-residual and residual-only passes of a coupled kernel, 1 and 2 threads.
+fn coupled_group(c: &mut Criterion, name: &str, problem: &Coupled<'_>) {
+    use dilata_physics::coupled::{CoupledKernel, RateTerm};
+    let Coupled {
+        mesh,
+        dofs,
+        mode,
+        laws,
+        x,
+    } = *problem;
+    let history: Vec<f64> = x.iter().map(|v| -v / 10.0).collect();
+    let kernel = CoupledKernel {
+        dofs,
+        fields: dilata_physics::coupled::CoupledFields {
+            u: dofs.field("u").expect("u"),
+            c: dofs.field("c").expect("c"),
+            mu: dofs.field("mu").expect("mu"),
+        },
+        mode,
+        laws,
         rate: RateTerm {
             a0: 0.1,
             history: &history,
@@ -203,19 +247,9 @@ fn coupled_axisym(c: &mut Criterion) {
         source: None,
         body_force: None,
         potential_source: None,
-        solution: &x,
+        solution: x,
     };
-    coupled_group(c, "assembly_coupled_axisym_quad8", &mesh, &dofs, &kernel);
-}
-
-/// Jacobian-with-residual and residual-only passes of a coupled kernel, 1 and 2 threads.
-fn coupled_group(
-    c: &mut Criterion,
-    name: &str,
-    mesh: &Mesh,
-    dofs: &DofMap,
-    kernel: &dilata_physics::coupled::CoupledKernel<'_>,
-) {
+    let kernel = &kernel;
     let mut group = c.benchmark_group(name);
     group.sample_size(20);
     group.throughput(Throughput::Elements(dofs.n_dofs() as u64));
@@ -243,7 +277,7 @@ fn coupled_spinodal(c: &mut Criterion) {
     use dilata_material::mobility::MobilityLaw;
     use dilata_material::stiffness::StiffnessLaw;
     use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
-    use dilata_physics::coupled::{CoupledFields, CoupledKernel, LawMap, RateTerm};
+    use dilata_physics::coupled::LawMap;
 
     let mesh = rectangle(&RectangleParams {
         origin: [0.0, 0.0],
@@ -252,20 +286,7 @@ fn coupled_spinodal(c: &mut Criterion) {
         kind: CellKind::Quad4,
     })
     .expect("mesh");
-    let dofs = DofMap::build(
-        &mesh,
-        &[
-            FieldSpec::vector("u", 0, 1),
-            FieldSpec::scalar("c", 1),
-            FieldSpec::scalar("mu", 1),
-        ],
-    )
-    .expect("dofs");
-    let fields = CoupledFields {
-        u: dofs.field("u").expect("u"),
-        c: dofs.field("c").expect("c"),
-        mu: dofs.field("mu").expect("mu"),
-    };
+    let (dofs, fields) = coupled_dofs(&mesh, 0, 1);
     // As `dilata run` builds a law without mechanics (crates/run/src/model.rs).
     let law = CoupledPointLaw::new(CoupledLawParts {
         stiffness: StiffnessLaw::isotropic(Isotropic::new(1.0, 0.0).expect("moduli")),
@@ -291,22 +312,14 @@ fn coupled_spinodal(c: &mut Criterion) {
             0.5 + 0.01 * (0.105 * p[0]).cos() * (0.11 * p[1]).cos();
         x[dofs.node_dof(fields.mu, node, 0).expect("mu")] = 0.1 * (0.05 * p[0]).sin();
     }
-    let history: Vec<f64> = x.iter().map(|v| -v / 10.0).collect();
-    let kernel = CoupledKernel {
+    let kernel = Coupled {
+        mesh: &mesh,
         dofs: &dofs,
-        fields,
         mode: GeometryMode::PlaneStrain,
         laws: &laws,
-        rate: RateTerm {
-            a0: 0.1,
-            history: &history,
-        },
-        source: None,
-        body_force: None,
-        potential_source: None,
-        solution: &x,
+        x: &x,
     };
-    coupled_group(c, "assembly_coupled_spinodal_quad4", &mesh, &dofs, &kernel);
+    coupled_group(c, "assembly_coupled_spinodal_quad4", &kernel);
 }
 
 criterion_group!(

@@ -457,57 +457,45 @@ fn point_terms(
         let law = post.laws.law(id);
         for q in 0..cv.n_points() {
             let w = cv.jxw[q];
-            if nc == 0 {
-                // No displacement unknowns: the reduced law (the same values).
-                let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
-                let out = law
-                    .evaluate_unstrained(c, grad_mu, grad_c)
-                    .map_err(|source| CoupledError::Range {
-                        cell: id,
-                        point: q,
-                        source,
-                    })?;
-                terms.push(PointTerms {
-                    w,
-                    c,
-                    deformed_volume: w,
-                    elastic_energy: out.elastic_energy * w,
-                    chemical_energy: out.chemical_energy * w,
-                    gradient_energy: out.gradient_energy * w,
-                    gradient_norm: grad_c.norm() * w,
-                });
-                continue;
-            }
-            let su = &cv.spaces[0];
-            // Quadrature points are interior: r > 0 in axisymmetry.
-            let strain = strain_at(
-                post.mode,
-                su.grads(q),
-                su.values(q),
-                cv.points[q][0],
-                &local.u,
-                nc,
-            );
             let (c, grad_mu, grad_c) = local.scalars_at(cv, q);
-            let out: PointOutput = law
-                .evaluate(&PointInput {
-                    strain,
-                    c,
-                    grad_mu,
-                    grad_c,
-                })
-                .map_err(|source| CoupledError::Range {
-                    cell: id,
-                    point: q,
-                    source,
-                })?;
+            let range = |source| CoupledError::Range {
+                cell: id,
+                point: q,
+                source,
+            };
+            // Elastic, chemical and gradient energy densities.
+            let energies = if nc == 0 {
+                // No displacement unknowns: the reduced law (the same values).
+                let out = law.evaluate_unstrained(c, grad_mu, grad_c).map_err(range)?;
+                [out.elastic_energy, out.chemical_energy, out.gradient_energy]
+            } else {
+                let su = &cv.spaces[0];
+                // Quadrature points are interior: r > 0 in axisymmetry.
+                let strain = strain_at(
+                    post.mode,
+                    su.grads(q),
+                    su.values(q),
+                    cv.points[q][0],
+                    &local.u,
+                    nc,
+                );
+                let out: PointOutput = law
+                    .evaluate(&PointInput {
+                        strain,
+                        c,
+                        grad_mu,
+                        grad_c,
+                    })
+                    .map_err(range)?;
+                [out.elastic_energy, out.chemical_energy, out.gradient_energy]
+            };
             terms.push(PointTerms {
                 w,
                 c,
                 deformed_volume: w,
-                elastic_energy: out.elastic_energy * w,
-                chemical_energy: out.chemical_energy * w,
-                gradient_energy: out.gradient_energy * w,
+                elastic_energy: energies[0] * w,
+                chemical_energy: energies[1] * w,
+                gradient_energy: energies[2] * w,
                 gradient_norm: grad_c.norm() * w,
             });
         }
