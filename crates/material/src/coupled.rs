@@ -197,11 +197,11 @@ impl CoupledPointLaw {
     }
 
     /// [`Self::evaluate`] at zero strain, reduced to what the mass and potential rows and the
-    /// energy integrals of a body without displacement unknowns use. Without swelling the stress vanishes there and the
-    /// potential is the chemical one, so the elastic parts are not formed (a phase-field run
-    /// without mechanics evaluates this at every point of every assembly); with swelling it is
-    /// `evaluate` itself. The values are those of `evaluate` (a zero elastic part is added to
-    /// the potential and its derivative as `evaluate` adds it).
+    /// energy integrals of a body without displacement unknowns use. Without swelling the
+    /// stress vanishes there and the potential is the chemical one, so the elastic parts are
+    /// not formed (a phase-field run without mechanics evaluates this at every point of every
+    /// assembly); with swelling it is `evaluate` itself. The values are those of `evaluate` (a
+    /// zero elastic part is added to the potential and its derivative as `evaluate` adds it).
     #[inline(always)]
     pub fn evaluate_unstrained(
         &self,

@@ -16,7 +16,8 @@
 //!   `LTE ≈ Δt_n / (t_{n+1} − t_{n−k}) · (x_{n+1} − x_pred)`,
 //! measured in the weighted RMS norm `sqrt(mean((e_i / (atol + rtol |x_i|))²))` over the
 //! unknowns the system marks as dynamic. A step is accepted when that norm is at most 1; the next
-//! step is `Δt · safety · norm^(−1/(k+1))`, limited by the growth and shrink bounds.
+//! step is `Δt · safety · norm^(−1/(k+1))`, limited by the growth and shrink bounds, and by
+//! `Δt` itself right after the estimate rejected a longer attempt of the same step.
 
 use crate::newton::{newton_in_step, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
 use dilata_linalg::LinearSolver;
