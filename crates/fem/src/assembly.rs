@@ -132,8 +132,9 @@ struct EntryTable {
 /// per cell (2D Poisson Q1), 20–35 % less assembly time with 12 (Tet4 elasticity), within the
 /// noise with 24 (Hex8 elasticity), about 14 % less with 32 (the axisymmetric particle's quad8
 /// coupled cells). With 8 (the spinodal benchmark's `c`, `μ` on quad4) no gain at first; once
-/// its kernel had become cheaper (2026-12-03), a Jacobian pass took 33–37 ms instead of
-/// 38–41 ms on one thread (best of 100, alternating), 20–24 ms instead of 22–23.5 ms on two.
+/// its kernel had become cheaper (2026-12-03), a Jacobian pass took 32.8–37.1 ms instead of
+/// 37.8–41.1 ms on one thread (best of 100, four alternating pairs), 20.0–23.9 ms instead of
+/// 22.3–23.6 ms on two.
 const ENTRY_TABLE_MIN_DOFS: usize = 8;
 
 /// Checksum of the DOFs of every cell, in cell order (see [`EntryTable::fingerprint`]).
