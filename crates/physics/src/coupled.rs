@@ -479,8 +479,9 @@ impl CoupledKernel<'_> {
         s: &mut CoupledScratch,
         out: LocalOutput<'_>,
     ) -> Result<(), CoupledError> {
-        let [ru, rc, rm] = self.local_ranges(input.kind);
-        self.gather(input, &[ru.clone(), rc.clone(), rm.clone()], s);
+        let ranges = self.local_ranges(input.kind);
+        self.gather(input, &ranges, s);
+        let [ru, rc, rm] = ranges;
         let CoupledScratch {
             cache,
             local,
@@ -568,16 +569,17 @@ impl CoupledKernel<'_> {
                 kappa: sp.kappa,
             };
             if let Some(fe) = vector.as_deref_mut() {
-                let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
-                for a in 0..nu_m {
-                    let p = p.as_ref().expect("evaluated with the strain when NC > 0");
-                    let ba = node_b(self.mode, gu[a], vu[a], r);
-                    for i in 0..NC {
-                        let mut v = 0.0;
-                        for &k in P::ROWS[i] {
-                            v += ba[k][i] * p.stress[k];
+                if let Some(p) = p.as_ref() {
+                    let body = self.body_force.map_or([0.0; 3], |f| f(cv.points[q]));
+                    for a in 0..nu_m {
+                        let ba = node_b(self.mode, gu[a], vu[a], r);
+                        for i in 0..NC {
+                            let mut v = 0.0;
+                            for &k in P::ROWS[i] {
+                                v += ba[k][i] * p.stress[k];
+                            }
+                            fe[ru.start + a * NC + i] += (v - vu[a] * body[i]) * w;
                         }
-                        fe[ru.start + a * NC + i] += (v - vu[a] * body[i]) * w;
                     }
                 }
                 let src = self.source.map_or(0.0, |f| f(cv.points[q]));

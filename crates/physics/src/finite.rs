@@ -88,8 +88,9 @@ pub(crate) fn finite_cell_into(
     s: &mut CoupledScratch,
     out: LocalOutput<'_>,
 ) -> Result<(), CoupledError> {
-    let [ru, rc, rm] = k.local_ranges(input.kind);
-    k.gather(input, &[ru.clone(), rc.clone(), rm.clone()], s);
+    let ranges = k.local_ranges(input.kind);
+    k.gather(input, &ranges, s);
+    let [ru, rc, rm] = ranges;
     let CoupledScratch { cache, local, .. } = s;
     let cv = cache.get(input.kind);
     cv.reinit(input.id, input.coords)?;
