@@ -73,10 +73,10 @@ pub(crate) fn analyze_symmetric(
     })
 }
 
-pub(crate) fn faer_view<'a>(
+pub(crate) fn faer_view<'a, T>(
     pattern: &'a CsrPattern,
-    values: &'a [f64],
-) -> SparseColMatRef<'a, usize, f64> {
+    values: &'a [T],
+) -> SparseColMatRef<'a, usize, T> {
     let n = pattern.n_rows;
     let a = SymbolicSparseColMatRef::new_checked(n, n, &pattern.row_ptr, None, &pattern.col_idx);
     SparseColMatRef::new(a, values)

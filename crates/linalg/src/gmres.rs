@@ -1,7 +1,7 @@
 //! Restarted GMRES with right preconditioning.
 
 use crate::csr::{CsrMatrix, CsrPattern};
-use crate::krylov::{norm, relative, residual_into, spmv, KrylovCore, KrylovParams};
+use crate::krylov::{norm, relative, spmv, KrylovCore, KrylovParams};
 use crate::parallel::Parallelism;
 use crate::precond::Preconditioner;
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
@@ -56,7 +56,9 @@ impl LinearSolver for Gmres {
             m_op.apply(r, z);
             Ok(())
         };
-        gmres_iterate(a, &mut precondition, &core.params, core.parallelism, rhs)
+        let par = core.parallelism;
+        let mut product = |x: &[f64], y: &mut [f64]| spmv(a, x, y, par);
+        gmres_iterate(&mut product, &mut precondition, &core.params, rhs)
     }
 
     fn name(&self) -> String {
@@ -71,16 +73,19 @@ impl LinearSolver for Gmres {
 /// A right preconditioner `z = M r` given as a closure that may fail.
 pub(crate) type PreconditionFn<'a> = dyn FnMut(&[f64], &mut [f64]) -> Result<(), LinalgError> + 'a;
 
-/// The GMRES(m) iteration of [`Gmres`] for any right preconditioner `z = M r` (given as a
-/// closure, which may fail): on entry `rhs` holds `b`, on exit `x` (zero initial guess).
+/// A matrix–vector product `y = A x` given as a closure.
+pub(crate) type ProductFn<'a> = dyn FnMut(&[f64], &mut [f64]) + 'a;
+
+/// The GMRES(m) iteration of [`Gmres`] for any operator `y = A x` and right preconditioner
+/// `z = M r` (given as closures, the preconditioner may fail): on entry `rhs` holds `b`, on
+/// exit `x` (zero initial guess).
 pub(crate) fn gmres_iterate(
-    a: &CsrMatrix,
+    product: &mut ProductFn<'_>,
     precondition: &mut PreconditionFn<'_>,
     params: &KrylovParams,
-    par: Parallelism,
     rhs: &mut [f64],
 ) -> Result<SolveInfo, LinalgError> {
-    let n = a.n_rows();
+    let n = rhs.len();
     let m = params.restart.max(1);
     let b = rhs.to_vec();
     let b_norm = norm(&b);
@@ -109,7 +114,11 @@ pub(crate) fn gmres_iterate(
             r.copy_from_slice(&b);
             b_norm
         } else {
-            residual_into(a, x, &b, &mut r, par)
+            product(x, &mut r);
+            for (ri, bi) in r.iter_mut().zip(&b) {
+                *ri = bi - *ri;
+            }
+            norm(&r)
         };
         if beta <= tol {
             return Ok(SolveInfo {
@@ -135,7 +144,7 @@ pub(crate) fn gmres_iterate(
                 zs.push(vec![0.0; n]);
             }
             precondition(&v[k], &mut zs[k])?;
-            spmv(a, &zs[k], &mut w, par);
+            product(&zs[k], &mut w);
             iterations += 1;
             for i in 0..=k {
                 let hik = crate::krylov::dot(&w, &v[i]);

@@ -32,7 +32,7 @@ use rayon::prelude::*;
 use crate::csr::{CsrMatrix, CsrPattern};
 use crate::direct::{check_rhs_len, DirectParams};
 use crate::gmres::gmres_iterate;
-use crate::krylov::KrylovParams;
+use crate::krylov::{spmv, KrylovParams};
 use crate::ldlt::{FaerLdlt, LdltPivoting, SignedPivots};
 use crate::lu::FaerLu;
 use crate::ordering::Ordering;
@@ -257,8 +257,6 @@ pub struct SymmetricFormSolver {
     last_iterations: usize,
     /// The reduction asked for by [`LinearSolver::set_requested_reduction`], if any.
     requested: Option<f64>,
-    /// `D T J D` on `A`'s pattern, for the current `J`.
-    a_hat: Option<CsrMatrix>,
     /// The current `J`, for the LU fallback and for refreshing the preconditioner.
     jac: Option<CsrMatrix>,
     lu: Option<FaerLu>,
@@ -283,7 +281,6 @@ impl SymmetricFormSolver {
             preconditioner_fresh: false,
             last_iterations: 0,
             requested: None,
-            a_hat: None,
             jac: None,
             lu: None,
             lu_factored: false,
@@ -333,8 +330,9 @@ impl SymmetricFormSolver {
         };
         let mut ldlt = FaerLdlt::with_pivoting(self.direct_params(), pivots);
         ldlt.set_solve_parallelism(self.solve_parallelism());
-        // Only a preconditioner: GMRES corrects its rounding (FaerLdlt::set_single_precision_solves).
-        ldlt.set_single_precision_solves(true);
+        // Only a preconditioner: GMRES corrects its rounding, so `Ŝ` is factored (and the
+        // factor applied) in single precision (FaerLdlt::set_single_precision_factor).
+        ldlt.set_single_precision_factor(true);
         ldlt.analyze(&structure.s_pattern)?;
         self.structure = Some(structure);
         self.ldlt = Some(ldlt);
@@ -381,34 +379,6 @@ impl SymmetricFormSolver {
         Ok(())
     }
 
-    /// `D T J D` for the current `J` and `D` (rows in parallel with a threaded solve phase;
-    /// each entry is computed alone, so the result does not depend on it).
-    fn build_a_hat(&mut self) {
-        let par = self.solve_parallelism().is_parallel();
-        let (Some(st), Some(t), Some(jac)) = (
-            self.structure.as_ref(),
-            self.transform.as_ref(),
-            self.jac.as_ref(),
-        ) else {
-            return;
-        };
-        let p = st.a_pattern.as_ref();
-        let a = self
-            .a_hat
-            .get_or_insert_with(|| CsrMatrix::zeros(st.a_pattern.clone()));
-        if !Arc::ptr_eq(&a.pattern, &st.a_pattern) {
-            *a = CsrMatrix::zeros(st.a_pattern.clone());
-        }
-        let d = &self.d;
-        for_each_row_mut(p, &mut a.values, par, |r, row| {
-            let row_factor = d[r] * t.scale[st.a_row_src[r]];
-            let start = p.row_ptr[r];
-            for (v, k) in row.iter_mut().zip(start..) {
-                *v = row_factor * jac.values[st.a_src[k]] * d[p.col_idx[k]];
-            }
-        });
-    }
-
     fn lu_solve(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
         let jac = self.jac.as_ref().ok_or_else(missing_factor)?;
         if self.lu.is_none() {
@@ -430,15 +400,16 @@ impl SymmetricFormSolver {
     /// failure.
     fn gmres_solve(&mut self, rhs: &mut [f64]) -> Result<SolveInfo, LinalgError> {
         let solve_par = self.solve_parallelism();
-        let (Some(t), Some(a), Some(ldlt)) = (
+        let (Some(t), Some(jac), Some(ldlt)) = (
             self.transform.as_ref(),
-            self.a_hat.as_ref(),
+            self.jac.as_ref(),
             self.ldlt.as_mut(),
         ) else {
             return Err(missing_factor());
         };
         let d = &self.d;
-        let mut y = vec![0.0; rhs.len()];
+        let n = rhs.len();
+        let mut y = vec![0.0; n];
         for (i, &b) in rhs.iter().enumerate() {
             let r = t.target[i];
             y[r] = d[r] * t.scale[i] * b;
@@ -451,7 +422,20 @@ impl SymmetricFormSolver {
         if let Some(r) = self.requested {
             krylov.rel_tol = r.clamp(krylov.rel_tol, MAX_REQUESTED_REDUCTION);
         }
-        let info = gmres_iterate(a, &mut precondition, &krylov, solve_par, &mut y)?;
+        // `D T J D x` without forming the matrix: `J` on `D x`, then each row of `J` to its
+        // place in `T J` with its factor `d_r s_i` (rows of `J` are never copied).
+        let (mut dx, mut jdx) = (vec![0.0; n], vec![0.0; n]);
+        let mut product = |x: &[f64], out: &mut [f64]| {
+            for ((u, xi), di) in dx.iter_mut().zip(x).zip(d) {
+                *u = xi * di;
+            }
+            spmv(jac, &dx, &mut jdx, solve_par);
+            for (i, (v, s)) in jdx.iter().zip(&t.scale).enumerate() {
+                let r = t.target[i];
+                out[r] = d[r] * s * v;
+            }
+        };
+        let info = gmres_iterate(&mut product, &mut precondition, &krylov, &mut y)?;
         for (x, (yi, di)) in rhs.iter_mut().zip(y.iter().zip(d)) {
             *x = yi * di;
         }
@@ -617,7 +601,6 @@ impl LinearSolver for SymmetricFormSolver {
         self.lu = None;
         self.lu_factored = false;
         self.preconditioner_ready = false;
-        self.a_hat = None;
         self.jac = None;
         self.prepare_structure()
     }
@@ -767,9 +750,6 @@ impl SymmetricFormSolver {
                 self.preconditioner_ready = false;
             }
         }
-        if self.preconditioner_ready {
-            self.build_a_hat();
-        }
         Ok(())
     }
 
@@ -785,7 +765,6 @@ impl SymmetricFormSolver {
         }
         // Not converged: retry with a preconditioner from this very matrix, then the LU.
         if !self.preconditioner_fresh && self.build_preconditioner().is_ok() {
-            self.build_a_hat();
             if let Some(info) = self.counted_gmres(rhs)? {
                 return Ok(info);
             }
