@@ -212,6 +212,7 @@ fn ramped_concentration_holds_at_every_step_end() {
             atol: 1.0,
             safety: 0.9,
             max_growth: 3.0,
+            predictive: true,
         }),
         x0,
     );

@@ -228,6 +228,7 @@ fn run(nx: usize, ny: usize) -> Outcome {
             atol: 1e-3,
             safety: 0.9,
             max_growth: 2.0,
+            predictive: true,
         }),
         newton: NewtonParams {
             abs_tol: 0.0,

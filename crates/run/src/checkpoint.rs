@@ -1,12 +1,13 @@
 //! Checkpoints: the complete state of a run between two steps, written so that a resumed run
 //! continues bit for bit as if it had never stopped.
 //!
-//! # File format (version 3)
+//! # File format (version 4)
 //!
 //! `checkpoint_SSSSSSSS.dck` in the results folder (`S`: the number of accepted steps), UTF-8
 //! text, one `key value` pair per line in a fixed order (see [`Checkpoint`] for the meaning):
 //!
-//! * the first line is `dilata-checkpoint 3` (the version);
+//! * the first line is `dilata-checkpoint 4` (the version; version 3, which lacks the
+//!   `last_error` line, is still read);
 //! * a real number is the 16 hexadecimal digits of its IEEE 754 bits (`3ff0000000000000` is
 //!   1.0), so it reads back to the same bits; an absent optional value is `-`;
 //! * an integer is decimal;
@@ -19,13 +20,15 @@
 
 use std::path::{Path, PathBuf};
 
-use dilata_solve::time::IntegratorState;
+use dilata_solve::time::{AcceptedError, IntegratorState};
 
 use crate::driver::StageOutcome;
 use crate::record::{HistoryRow, Probe};
 use crate::RunError;
 
-const MAGIC: &str = "dilata-checkpoint 3";
+const MAGIC: &str = "dilata-checkpoint 4";
+/// The previous version: the same without `last_error` (read as "none").
+const MAGIC_3: &str = "dilata-checkpoint 3";
 
 /// The state of a run between two steps.
 #[derive(Clone, Debug, PartialEq)]
@@ -241,6 +244,13 @@ fn render(c: &Checkpoint) -> String {
     put("dt_next", real(s.dt_next));
     put("n_accepted", s.n_accepted.to_string());
     put("n_rejected", s.n_rejected.to_string());
+    put(
+        "last_error",
+        match s.last_error {
+            Some(e) => format!("{} {} {}", real(e.dt), real(e.error), e.order),
+            None => "-".into(),
+        },
+    );
     put("x", reals(&s.x));
     put("past", s.past.len().to_string());
     for (t, x) in &s.past {
@@ -394,11 +404,15 @@ fn parse(input: &str) -> Result<Checkpoint, ParseError> {
         lines: input.lines().enumerate(),
         line: 0,
     };
-    if r.next_line()? != MAGIC {
-        return r.err(format!(
-            "not a checkpoint of this version (expected '{MAGIC}')"
-        ));
-    }
+    let version = match r.next_line()? {
+        MAGIC => 4,
+        MAGIC_3 => 3,
+        _ => {
+            return r.err(format!(
+                "not a checkpoint of this version (expected '{MAGIC}' or '{MAGIC_3}')"
+            ))
+        }
+    };
     let v = r.value("scenario_hash")?;
     let scenario_hash = u64::from_str_radix(v, 16)
         .or_else(|_| r.err(format!("'{v}' is not a hexadecimal hash")))?;
@@ -422,6 +436,23 @@ fn parse(input: &str) -> Result<Checkpoint, ParseError> {
     let n_accepted = r.int(v)?;
     let v = r.value("n_rejected")?;
     let n_rejected = r.int(v)?;
+    let last_error = if version >= 4 {
+        let v = r.value("last_error")?;
+        if v == "-" {
+            None
+        } else {
+            match v.split(' ').collect::<Vec<_>>()[..] {
+                [dt, error, order] => Some(AcceptedError {
+                    dt: r.real(dt)?,
+                    error: r.real(error)?,
+                    order: r.int(order)?,
+                }),
+                _ => return r.err("expected '-' or a step size, an error norm and an order"),
+            }
+        }
+    } else {
+        None
+    };
     let v = r.value("x")?;
     let x = r.reals(v)?;
     if x.len() != n_dofs {
@@ -522,6 +553,7 @@ fn parse(input: &str) -> Result<Checkpoint, ParseError> {
             dt_next,
             n_accepted,
             n_rejected,
+            last_error,
         },
         solver_state,
         inflow,
@@ -597,6 +629,11 @@ mod tests {
                 dt_next: 1e-7,
                 n_accepted: 12,
                 n_rejected: 3,
+                last_error: Some(AcceptedError {
+                    dt: 0.1 + 0.2,
+                    error: 0.7,
+                    order: 2,
+                }),
             },
             solver_state: vec![0.5; 6],
             inflow: (1e-20, -2e-20),
@@ -642,6 +679,34 @@ mod tests {
         assert_eq!(back.stop_value.unwrap().to_bits(), (-0.0f64).to_bits());
         assert_eq!(back.last_row.stage, "rest\nand more");
         assert!(back.last_row.balance_error.is_nan());
+        assert_eq!(back.integrator.last_error, c.integrator.last_error);
+        let none = Checkpoint {
+            integrator: IntegratorState {
+                last_error: None,
+                ..c.integrator.clone()
+            },
+            ..c.clone()
+        };
+        assert!(bits_equal(&none, &parse(&render(&none)).unwrap()));
+    }
+
+    /// A version-3 checkpoint (no `last_error` line) still resumes, without the step
+    /// control's memory.
+    #[test]
+    fn a_version_3_checkpoint_is_read_without_the_last_error() {
+        let text = render(&sample());
+        let v3: Vec<&str> = text
+            .lines()
+            .filter(|l| !l.starts_with("last_error "))
+            .map(|l| if l == MAGIC { MAGIC_3 } else { l })
+            .collect();
+        let back = parse(&(v3.join("\n") + "\n")).unwrap();
+        assert_eq!(back.integrator.last_error, None);
+        assert_eq!(back.integrator.n_rejected, 3);
+        let damaged = text.replace("last_error ", "last_error 1 ");
+        let (line, message) = parse(&damaged).unwrap_err();
+        assert_eq!(line, 13, "{message}");
+        assert!(message.contains("expected '-' or a step size"), "{message}");
     }
 
     #[test]
@@ -651,7 +716,7 @@ mod tests {
         assert!(parse(cut).is_err());
         let damaged = text.replace("n_dofs 3", "n_dofs 4");
         let (line, message) = parse(&damaged).unwrap_err();
-        assert_eq!(line, 13, "{message}");
+        assert_eq!(line, 14, "{message}");
         assert!(message.contains("x has 3 values"), "{message}");
         assert!(parse("something else\n").is_err());
     }

@@ -370,6 +370,7 @@ pub fn run_with(
                     dt_next: 0.0,
                     n_accepted: 0,
                     n_rejected: 0,
+                    last_error: None,
                 },
                 solver_state: Vec::new(),
                 inflow: (0.0, 0.0),
@@ -425,8 +426,10 @@ pub fn run_with(
             .map_err(|e| RunError::Numerical(format!("stage '{}': {e}", plan.name)))?;
         if !(resuming && si == first_stage) {
             st.stage = si;
-            // Restart the multistep history at a stage change (the loads may jump).
+            // Restart the multistep history at a stage change (the loads may jump), and the
+            // step control's memory with it.
             integrator.state.past.clear();
+            integrator.state.last_error = None;
             st.stop_value = match &plan.stop {
                 Some(rule) => Some(stop_quantity(
                     rule,
@@ -701,6 +704,7 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
                 .unwrap_or(time.tolerance * if c_scale > 0.0 { c_scale } else { 1.0 }),
             safety: 0.9,
             max_growth: 2.0,
+            predictive: true,
         }),
     };
     IntegratorParams {

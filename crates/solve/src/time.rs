@@ -16,8 +16,10 @@
 //!   `LTE ≈ Δt_n / (t_{n+1} − t_{n−k}) · (x_{n+1} − x_pred)`,
 //! measured in the weighted RMS norm `sqrt(mean((e_i / (atol + rtol |x_i|))²))` over the
 //! unknowns the system marks as dynamic. A step is accepted when that norm is at most 1; the next
-//! step is `Δt · safety · norm^(−1/(k+1))`, limited by the growth and shrink bounds, and by
-//! `Δt` itself right after the estimate rejected a longer attempt of the same step.
+//! step is `Δt · safety · norm^(−1/(k+1))`, limited by the growth and shrink bounds, by `Δt`
+//! itself right after the estimate rejected a longer attempt of the same step, and by the
+//! predictive factor of Gustafsson when the last accepted step has an estimate of the same
+//! order (see `predictive_factor`).
 
 use crate::newton::{newton_in_step, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
 use dilata_linalg::LinearSolver;
@@ -100,6 +102,8 @@ pub struct AdaptiveParams {
     pub safety: f64,
     /// Largest growth factor of one step to the next.
     pub max_growth: f64,
+    /// Also bound the next step by Gustafsson's predictive factor (see `predictive_factor`).
+    pub predictive: bool,
 }
 
 /// Parameters of the integrator.
@@ -127,6 +131,29 @@ pub struct IntegratorState {
     pub dt_next: f64,
     pub n_accepted: usize,
     pub n_rejected: usize,
+    /// The last accepted step's size and error estimate, for the predictive step control
+    /// (None: not estimated, or the multistep history was restarted).
+    pub last_error: Option<AcceptedError>,
+}
+
+/// Size, weighted local error norm and order of an accepted step.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct AcceptedError {
+    pub dt: f64,
+    pub error: f64,
+    pub order: usize,
+}
+
+/// The step factor of Gustafsson's predictive controller, as in Hairer & Wanner (Solving
+/// Ordinary Differential Equations II, 2nd ed., Springer 1996, sec. IV.8, eq. (8.21), from
+/// memory): `safety · (Δt_n / Δt_acc) · (err_acc / err_n²)^(1/(k+1))`, from this step
+/// (`Δt_n`, `err_n`) and the last accepted one, within the growth and shrink bounds. The
+/// integrator takes the smaller of this and the classical factor, as that book's RADAU5 code
+/// does: a rising error shortens the next step before it is rejected.
+fn predictive_factor(a: &AdaptiveParams, last: AcceptedError, dt: f64, err: f64, k: f64) -> f64 {
+    let err = err.max(1e-10);
+    let ratio = last.error.max(1e-10) / (err * err);
+    (a.safety * (dt / last.dt) * ratio.powf(1.0 / (k + 1.0))).clamp(0.2, a.max_growth)
 }
 
 /// The rate rule of one step: `ẋ_{n+1} ≈ a0 x_{n+1} + a1 x_n + a2 x_{n−1}` (`a2 = 0` for
@@ -214,6 +241,7 @@ impl Integrator {
                 dt_next: dt,
                 n_accepted: 0,
                 n_rejected: 0,
+                last_error: None,
             },
             energy: None,
         }
@@ -292,11 +320,21 @@ impl Integrator {
                         // sec. II.4, from memory): the estimate has just rejected a step at
                         // least `1/0.9` times this one. (A Newton failure says nothing about
                         // the error, and its cut is a guess.)
-                        let factor = if error_rejected {
+                        let mut factor = if error_rejected {
                             factor.min(1.0)
                         } else {
                             factor
                         };
+                        // Predictive control (Gustafsson): where the error grew from the last
+                        // accepted step to this one, expect it to go on growing.
+                        let last = self
+                            .state
+                            .last_error
+                            .filter(|l| a.predictive && l.order == order);
+                        if let Some(last) = last {
+                            let predictive = predictive_factor(&a, last, dt, err, k);
+                            factor = factor.min(predictive);
+                        }
                         (Some(err), (dt * factor).min(a.dt_max))
                     }
                 },
@@ -342,6 +380,7 @@ impl Integrator {
             self.state.t = t_new;
             self.state.dt_next = dt_next;
             self.state.n_accepted += 1;
+            self.state.last_error = error.map(|error| AcceptedError { dt, error, order });
             self.energy = energy_after.map(|e| (t_new, e));
             return Ok(StepReport {
                 t: t_new,

@@ -188,6 +188,7 @@ fn adaptive_steps_meet_tolerance_and_hit_the_end_time() {
             atol: 1e-6,
             safety: 0.9,
             max_growth: 2.0,
+            predictive: true,
         };
         let (integ, err) = integrate(scheme, StepSizing::Adaptive(a), 2.0, &mut sys);
         let worst = err.iter().cloned().fold(0.0, f64::max);
@@ -252,6 +253,7 @@ fn adaptive() -> StepSizing {
         atol: 1e-6,
         safety: 0.9,
         max_growth: 2.0,
+        predictive: true,
     })
 }
 
@@ -337,6 +339,7 @@ fn no_growth_right_after_an_error_rejection() {
         atol: 1e-6,
         safety: 0.9,
         max_growth: 2.0,
+        predictive: true,
     };
     let params = |sizing| IntegratorParams {
         scheme: Scheme::Bdf2,
@@ -350,10 +353,18 @@ fn no_growth_right_after_an_error_rejection() {
     let mut solver = solver_for(&sys);
     let mut integ = Integrator::new(params(StepSizing::Adaptive(a)), 0.0, sys.exact(0.0));
     let mut seen = 0;
+    let mut last: Option<(f64, f64)> = None;
     while integ.state.t < 20.0 {
         sys.last_t = integ.state.t;
         let report = integ.step(&mut sys, &mut solver, 20.0).unwrap();
         let err = report.error.unwrap_or(0.0);
+        // Whether the predictive factor (if any) would also let the step grow.
+        let predicted_growth = last.is_none_or(|(h, e): (f64, f64)| {
+            0.9 * (report.dt / h) * (e / (err * err)).powf(1.0 / 3.0) > 1.0
+        });
+        if integ.state.n_accepted >= 2 {
+            last = report.error.map(|e| (report.dt, e));
+        }
         if report.rejections.iter().any(|r| r.contains("local error")) {
             seen += 1;
             assert!(
@@ -363,7 +374,11 @@ fn no_growth_right_after_an_error_rejection() {
                 report.dt,
                 integ.state.dt_next
             );
-        } else if err > 0.0 && err < 0.5 * 0.9f64.powi(3) && integ.state.dt_next < 10.0 {
+        } else if err > 0.0
+            && err < 0.5 * 0.9f64.powi(3)
+            && predicted_growth
+            && integ.state.dt_next < 10.0
+        {
             // Without a rejection the same error would have let the step grow.
             assert!(integ.state.dt_next > report.dt);
         }
@@ -383,5 +398,83 @@ fn no_growth_right_after_an_error_rejection() {
         "{} -> {}",
         report.dt,
         integ.state.dt_next
+    );
+}
+
+/// Gustafsson's predictive factor (Hairer & Wanner, Solving ODEs II, sec. IV.8, from memory)
+/// bounds every step after one of the same order: `Δt_{n+1} ≤ 0.9 (Δt_n / Δt_{n−1})
+/// (err_{n−1} / err_n²)^(1/3) Δt_n` for BDF2. On the test equation, whose error rises and
+/// falls with `sin t`, it must reject no more attempts than the classical rule alone.
+#[test]
+fn the_predictive_factor_bounds_the_next_step() {
+    let sizing = |predictive| {
+        StepSizing::Adaptive(AdaptiveParams {
+            dt_initial: 1e-3,
+            dt_min: 1e-9,
+            dt_max: 10.0,
+            rtol: 1e-5,
+            atol: 1e-7,
+            safety: 0.9,
+            max_growth: 2.0,
+            predictive,
+        })
+    };
+    let mut counts = Vec::new();
+    for predictive in [false, true] {
+        let mut sys = Decay::new(vec![1.0, 0.2]);
+        let mut solver = solver_for(&sys);
+        let params = IntegratorParams {
+            scheme: Scheme::Bdf2,
+            sizing: sizing(predictive),
+            newton: newton_params(),
+            cut_factor: 0.25,
+            dt_min: 1e-9,
+            energy: None,
+        };
+        let mut integ = Integrator::new(params, 0.0, sys.exact(0.0));
+        let mut previous: Option<(f64, f64)> = None;
+        let mut binding = 0;
+        while integ.state.t < 30.0 {
+            sys.last_t = integ.state.t;
+            let report = integ.step(&mut sys, &mut solver, 30.0).unwrap();
+            // The first step (backward Euler, no history) has no estimate.
+            let Some(err) = report.error else {
+                previous = None;
+                continue;
+            };
+            let classical = (0.9 * err.powf(-1.0 / 3.0)).clamp(0.2, 2.0);
+            if let (Some((h, e)), true) = (previous, report.rejections.is_empty()) {
+                let g = (0.9 * (report.dt / h) * (e / (err * err)).powf(1.0 / 3.0)).clamp(0.2, 2.0);
+                let next = integ.state.dt_next;
+                if integ.state.t < 30.0 && next < 10.0 {
+                    if predictive {
+                        assert!(
+                            next <= report.dt * g * (1.0 + 1e-12),
+                            "t = {}: {next} above the predictive bound {}",
+                            report.t,
+                            report.dt * g
+                        );
+                        binding += usize::from(g < classical);
+                    } else {
+                        assert!((next - report.dt * classical).abs() <= 1e-12 * next);
+                    }
+                }
+            }
+            previous = Some((report.dt, err));
+        }
+        eprintln!(
+            "predictive {predictive}: {} accepted, {} rejected, predictive factor binding {binding} times",
+            integ.state.n_accepted, integ.state.n_rejected
+        );
+        if predictive {
+            assert!(binding > 0, "the predictive factor never bound the step");
+        }
+        counts.push(integ.state.n_rejected);
+    }
+    assert!(
+        counts[1] < counts[0],
+        "rejections: classical {}, predictive {}",
+        counts[0],
+        counts[1]
     );
 }
