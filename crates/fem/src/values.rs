@@ -118,6 +118,10 @@ pub struct CellValues {
     /// Jacobian determinant per point.
     pub det: Vec<f64>,
     inv_jac: Vec<[[f64; 3]; 3]>,
+    /// Node coordinates of the last mapped cell relative to its first node, and whether the
+    /// Jacobians, determinants and gradients above belong to them (see `reinit`).
+    relative: Vec<[f64; 3]>,
+    mapped: bool,
 }
 
 impl CellValues {
@@ -143,12 +147,14 @@ impl CellValues {
         CellValues {
             kind,
             mode,
-            geometry,
             spaces,
             jxw: vec![0.0; nq],
             points: vec![[0.0; 3]; nq],
             det: vec![0.0; nq],
             inv_jac: vec![[[0.0; 3]; 3]; nq],
+            relative: vec![[0.0; 3]; geometry.n_nodes],
+            mapped: false,
+            geometry,
             rule,
         }
     }
@@ -158,6 +164,13 @@ impl CellValues {
     }
 
     /// Map the cell with node coordinates `coords` (geometry nodes, in node order).
+    ///
+    /// The Jacobian is formed from the coordinates relative to the first node
+    /// (`Σ_a (x_a − x_0) ⊗ ∇N_a`, equal to `Σ_a x_a ⊗ ∇N_a` since the shape functions sum to
+    /// one), so a cell that is a translate of the last one mapped, to the last bit of those
+    /// differences (every cell of a generated uniform grid), has the same Jacobians,
+    /// determinants and shape gradients: they are kept, and only the point positions (and
+    /// axisymmetric weights) are computed. The result is the same whichever cell came before.
     pub fn reinit(&mut self, cell: usize, coords: &[[f64; 3]]) -> Result<(), InvertedCell> {
         assert_eq!(
             coords.len(),
@@ -180,19 +193,48 @@ impl CellValues {
         coords: &[[f64; 3]],
     ) -> Result<(), InvertedCell> {
         let n = self.geometry.n_nodes;
+        let x0 = coords[0];
+        let translate = self.mapped
+            && coords
+                .iter()
+                .zip(&self.relative)
+                .all(|(c, r)| (0..3).all(|i| c[i] - x0[i] == r[i]));
+        if translate {
+            for q in 0..self.n_points() {
+                let nv = self.geometry.values_at(q);
+                let mut x = [0.0; 3];
+                for (xa, na) in coords.iter().zip(nv) {
+                    for i in 0..3 {
+                        x[i] += na * xa[i];
+                    }
+                }
+                if self.mode == GeometryMode::Axisymmetric {
+                    // The same operations as below.
+                    let mut w = self.rule.weights[q] * self.det[q];
+                    w *= 2.0 * std::f64::consts::PI * x[0];
+                    self.jxw[q] = w;
+                }
+                self.points[q] = x;
+            }
+            return Ok(());
+        }
+        self.mapped = false;
+        for (r, c) in self.relative.iter_mut().zip(coords) {
+            *r = [c[0] - x0[0], c[1] - x0[1], c[2] - x0[2]];
+        }
         for q in 0..self.n_points() {
             let nv = self.geometry.values_at(q);
             let dn = self.geometry.grads_at(q);
             let mut x = [0.0; 3];
             let mut jac = [[0.0; 3]; 3]; // jac[i][j] = d x_i / d xi_j
             for a in 0..n {
-                let (xa, na, ga) = (&coords[a], nv[a], &dn[a]);
+                let (xa, ra, na, ga) = (&coords[a], &self.relative[a], nv[a], &dn[a]);
                 for i in 0..3 {
                     x[i] += na * xa[i];
                 }
                 for i in 0..D {
                     for j in 0..D {
-                        jac[i][j] += xa[i] * ga[j];
+                        jac[i][j] += ra[i] * ga[j];
                     }
                 }
             }
@@ -240,6 +282,7 @@ impl CellValues {
                 }
             }
         }
+        self.mapped = true;
         Ok(())
     }
 }
@@ -388,4 +431,75 @@ fn cross(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
         a[2] * b[0] - a[0] * b[2],
         a[0] * b[1] - a[1] * b[0],
     ]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::quadrature::rule_for;
+
+    /// Every output of `reinit` as bits, for comparisons to the last bit.
+    fn snapshot(v: &CellValues) -> Vec<u64> {
+        let mut out: Vec<u64> = Vec::new();
+        out.extend(v.jxw.iter().map(|x| x.to_bits()));
+        out.extend(v.det.iter().map(|x| x.to_bits()));
+        out.extend(v.points.iter().flatten().map(|x| x.to_bits()));
+        for s in &v.spaces {
+            out.extend(s.grads.iter().flatten().map(|x| x.to_bits()));
+        }
+        out
+    }
+
+    /// A cell mapped right after a translate of itself (the reused Jacobians) gives the same
+    /// bits as the same cell mapped by fresh values, in every geometry mode; a cell that is
+    /// not a translate is mapped anew.
+    #[test]
+    fn a_translated_cell_reuses_its_jacobians_to_the_same_bits() {
+        // Dyadic coordinates, so that shifts by 0.25 and 0.5 keep every difference exact.
+        let base = [
+            [1.0, 0.5, 0.0],
+            [1.25, 0.5, 0.0],
+            [1.375, 0.875, 0.0],
+            [0.9375, 0.8125, 0.0],
+        ];
+        let shift = |c: &[[f64; 3]; 4], dx: f64, dy: f64| c.map(|p| [p[0] + dx, p[1] + dy, 0.0]);
+        // A shift by (0.7, 0.3) does not keep them all exact: that cell is a translate only to rounding
+        // and is mapped anew.
+        let cells = [
+            base,
+            shift(&base, 0.25, 0.0),
+            shift(&base, 0.25, 0.5),
+            shift(&base, 0.7, 0.3),
+            base.map(|p| [p[0] * 1.5, p[1], 0.0]),
+            base,
+        ];
+        for mode in [GeometryMode::PlaneStrain, GeometryMode::Axisymmetric] {
+            let make = || {
+                CellValues::new(
+                    CellKind::Quad4,
+                    mode,
+                    rule_for(CellKind::Quad4.shape(), 2),
+                    &[CellKind::Quad4, CellKind::Quad4],
+                )
+            };
+            let mut running = make();
+            for (k, c) in cells.iter().enumerate() {
+                running.reinit(k, c).unwrap();
+                let mut fresh = make();
+                fresh.reinit(k, c).unwrap();
+                assert_eq!(snapshot(&running), snapshot(&fresh), "{mode:?}, cell {k}");
+                assert!(running.mapped);
+                // Cells 1 and 2 take the reuse path: exact translates of their predecessor.
+                let translate = k > 0
+                    && c.iter()
+                        .zip(&cells[k - 1])
+                        .all(|(p, q)| (0..3).all(|i| p[i] - c[0][i] == q[i] - cells[k - 1][0][i]));
+                assert_eq!(translate, k == 1 || k == 2, "cell {k}");
+            }
+            // An inverted cell after a valid one is still reported.
+            let inverted = [base[1], base[0], base[3], base[2]];
+            assert!(running.reinit(9, &inverted).is_err());
+            assert!(!running.mapped);
+        }
+    }
 }
