@@ -44,6 +44,60 @@ use crate::solver::{LinalgError, LinearSolver, SolveInfo};
 /// The spinodal benchmark's factor holds 8.9 M values, the charging particle's 4.2 M.
 const SINGLE_FACTOR_MIN_VALUES: usize = 1_000_000;
 
+/// faer's numeric factorisation of `a` with the given pivoting, in the precision of `T`:
+/// `L` into `factor.0`, the 2x2 pivots' off-diagonal entries into `factor.1` and the pivoting
+/// permutation into `pivots` (Bunch–Kaufman), or static signed pivots with the regularisation
+/// `(delta, epsilon)`.
+fn factorize<T: faer::traits::ComplexField<Real = T>>(
+    state: &mut SymbolicState,
+    pivoting: &LdltPivoting,
+    regularization: (T, T),
+    factor: (&mut [T], &mut [T]),
+    pivots: (&mut [usize], &mut [usize]),
+    a: faer::sparse::SparseColMatRef<'_, usize, T>,
+    par: faer::Par,
+) -> Result<(), LinalgError> {
+    let stack = MemStack::new(&mut state.mem);
+    match pivoting {
+        LdltPivoting::IntranodeBunchKaufman => {
+            state.symbolic.factorize_numeric_intranode_lblt(
+                factor.0,
+                factor.1,
+                pivots.0,
+                pivots.1,
+                a,
+                FAER_SIDE,
+                par,
+                stack,
+                Default::default(),
+            );
+        }
+        LdltPivoting::Signed(sp) => {
+            let (delta, epsilon) = regularization;
+            let regularization = LdltRegularization {
+                dynamic_regularization_signs: Some(&sp.signs),
+                dynamic_regularization_delta: delta,
+                dynamic_regularization_epsilon: epsilon,
+            };
+            let result = state.symbolic.factorize_numeric_ldlt(
+                factor.0,
+                a,
+                FAER_SIDE,
+                regularization,
+                par,
+                stack,
+                Default::default(),
+            );
+            if let Err(LdltError::ZeroPivot { index }) = result {
+                return Err(LinalgError::Singular {
+                    pivot: state.perm.fwd.get(index).copied(),
+                });
+            }
+        }
+    }
+    Ok(())
+}
+
 /// Parameters of the signed (static-pivot, regularised) `LDLᵀ`.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SignedPivots {
@@ -237,6 +291,18 @@ impl FaerLdlt {
         check_finite(rhs)
     }
 
+    /// Hand the pivots of the last factorisation to the plain-loop solve.
+    fn set_fast_pivots(&mut self) {
+        if let Some(fast) = self.fast.as_mut() {
+            match self.pivoting {
+                LdltPivoting::IntranodeBunchKaufman => {
+                    fast.set_pivots(Some((&self.pivot_fwd, &self.pivot_inv)))
+                }
+                LdltPivoting::Signed(_) => fast.set_pivots(None),
+            }
+        }
+    }
+
     /// The single-precision factorisation of [`FaerLdlt::set_single_precision_factor`], with
     /// its probe solve; on success the factor is ready for [`FaerLdlt::apply_factor`].
     fn factor_single(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
@@ -254,57 +320,30 @@ impl FaerLdlt {
         let a = faer_view(&matrix.pattern, &self.a_single);
         self.l_single.resize(state.symbolic.len_val(), 0.0);
         self.subdiag_single.resize(n, 0.0);
-        let stack = MemStack::new(&mut state.mem);
-        match &self.pivoting {
-            LdltPivoting::IntranodeBunchKaufman => {
-                state.symbolic.factorize_numeric_intranode_lblt(
-                    &mut self.l_single,
-                    &mut self.subdiag_single,
-                    &mut self.pivot_fwd,
-                    &mut self.pivot_inv,
-                    a,
-                    FAER_SIDE,
-                    faer::Par::Seq,
-                    stack,
-                    Default::default(),
-                );
-            }
+        // A pivot within a few roundings of zero is noise in single precision.
+        let floor = 8.0 * f32::EPSILON;
+        let regularization = match &self.pivoting {
             LdltPivoting::Signed(sp) => {
-                // A pivot within a few roundings of zero is noise in single precision.
-                let floor = 8.0 * f32::EPSILON;
-                let regularization = LdltRegularization {
-                    dynamic_regularization_signs: Some(&sp.signs),
-                    dynamic_regularization_delta: (sp.delta as f32).max(floor),
-                    dynamic_regularization_epsilon: (sp.epsilon as f32).max(floor),
-                };
-                let result = state.symbolic.factorize_numeric_ldlt(
-                    &mut self.l_single,
-                    a,
-                    FAER_SIDE,
-                    regularization,
-                    faer::Par::Seq,
-                    stack,
-                    Default::default(),
-                );
-                if let Err(LdltError::ZeroPivot { index }) = result {
-                    return Err(LinalgError::Singular {
-                        pivot: state.perm.fwd.get(index).copied(),
-                    });
-                }
-                self.matrix = Some(matrix.clone());
+                ((sp.delta as f32).max(floor), (sp.epsilon as f32).max(floor))
             }
+            LdltPivoting::IntranodeBunchKaufman => (0.0, 0.0),
+        };
+        factorize(
+            state,
+            &self.pivoting,
+            regularization,
+            (&mut self.l_single, &mut self.subdiag_single),
+            (&mut self.pivot_fwd, &mut self.pivot_inv),
+            a,
+            faer::Par::Seq,
+        )?;
+        if matches!(self.pivoting, LdltPivoting::Signed(_)) {
+            self.matrix = Some(matrix.clone());
         }
         self.subdiag.clear();
         self.subdiag
             .extend(self.subdiag_single.iter().map(|&v| f64::from(v)));
-        if let Some(fast) = self.fast.as_mut() {
-            match self.pivoting {
-                LdltPivoting::IntranodeBunchKaufman => {
-                    fast.set_pivots(Some((&self.pivot_fwd, &self.pivot_inv)))
-                }
-                LdltPivoting::Signed(_) => fast.set_pivots(None),
-            }
-        }
+        self.set_fast_pivots();
         self.single_ready = true;
         let b = probe_rhs(n);
         let mut x = b.clone();
@@ -423,54 +462,24 @@ impl LinearSolver for FaerLdlt {
         let state = self.state.as_mut().ok_or_else(missing_analysis)?;
         let n = state.pattern.n();
         let a = faer_view(&matrix.pattern, &matrix.values);
-        let par = self.params.parallelism.to_faer();
-        let stack = MemStack::new(&mut state.mem);
-        match &self.pivoting {
-            LdltPivoting::IntranodeBunchKaufman => {
-                state.symbolic.factorize_numeric_intranode_lblt(
-                    &mut self.l_values,
-                    &mut self.subdiag,
-                    &mut self.pivot_fwd,
-                    &mut self.pivot_inv,
-                    a,
-                    FAER_SIDE,
-                    par,
-                    stack,
-                    Default::default(),
-                );
-            }
-            LdltPivoting::Signed(sp) => {
-                let regularization = LdltRegularization {
-                    dynamic_regularization_signs: Some(&sp.signs),
-                    dynamic_regularization_delta: sp.delta,
-                    dynamic_regularization_epsilon: sp.epsilon,
-                };
-                let result = state.symbolic.factorize_numeric_ldlt(
-                    &mut self.l_values,
-                    a,
-                    FAER_SIDE,
-                    regularization,
-                    par,
-                    stack,
-                    Default::default(),
-                );
-                if let Err(LdltError::ZeroPivot { index }) = result {
-                    return Err(LinalgError::Singular {
-                        pivot: state.perm.fwd.get(index).copied(),
-                    });
-                }
-                self.matrix = Some(matrix.clone());
-            }
+        let regularization = match &self.pivoting {
+            LdltPivoting::Signed(sp) => (sp.delta, sp.epsilon),
+            LdltPivoting::IntranodeBunchKaufman => (0.0, 0.0),
+        };
+        factorize(
+            state,
+            &self.pivoting,
+            regularization,
+            (&mut self.l_values, &mut self.subdiag),
+            (&mut self.pivot_fwd, &mut self.pivot_inv),
+            a,
+            self.params.parallelism.to_faer(),
+        )?;
+        if matches!(self.pivoting, LdltPivoting::Signed(_)) {
+            self.matrix = Some(matrix.clone());
         }
         self.stats.n_factorizations += 1;
-        if let Some(fast) = self.fast.as_mut() {
-            match self.pivoting {
-                LdltPivoting::IntranodeBunchKaufman => {
-                    fast.set_pivots(Some((&self.pivot_fwd, &self.pivot_inv)))
-                }
-                LdltPivoting::Signed(_) => fast.set_pivots(None),
-            }
-        }
+        self.set_fast_pivots();
         // Probe solve: a zero pivot leaves infinities or NaNs in the factor, a rounding-level
         // pivot a huge solution (see `check_probe`).
         let b = probe_rhs(n);
