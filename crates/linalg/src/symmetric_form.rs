@@ -167,8 +167,7 @@ pub struct SymmetricFormStats {
     pub gmres_iterations: usize,
     /// Solves done by the LU fallback.
     pub lu_solves: usize,
-    /// Wall time spent in `factor` (symmetric factorisations, the equilibrated matrix for
-    /// GMRES, copies) and in `solve_in_place` (GMRES with its preconditioner, LU fallbacks).
+    /// Wall time spent in `factor` (symmetric factorisations, the copy of `J`) and in `solve_in_place` (GMRES with its preconditioner, LU fallbacks).
     pub factor_time: std::time::Duration,
     pub solve_time: std::time::Duration,
 }

@@ -145,7 +145,7 @@ pub struct AcceptedError {
 }
 
 /// The step factor of Gustafsson's predictive controller, as in Hairer & Wanner (Solving
-/// Ordinary Differential Equations II, 2nd ed., Springer 1996, sec. IV.8, eq. (8.21), from
+/// Ordinary Differential Equations II, 2nd ed., Springer 1996, sec. IV.8, from
 /// memory): `safety · (Δt_n / Δt_acc) · (err_acc / err_n²)^(1/(k+1))`, from this step
 /// (`Δt_n`, `err_n`) and the last accepted one, within the growth and shrink bounds. The
 /// integrator takes the smaller of this and the classical factor, as that book's RADAU5 code
