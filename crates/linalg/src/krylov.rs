@@ -142,6 +142,38 @@ pub(crate) fn spmv(a: &CsrMatrix, x: &[f64], y: &mut [f64], parallelism: Paralle
     }
 }
 
+/// [`spmv`] with the column indices of `a`'s pattern given as `u32` (`cols`, the same
+/// indices): the same sums in the same order, with a quarter less memory to read than with
+/// `usize` indices (a product waits on memory).
+pub(crate) fn spmv_u32(
+    a: &CsrMatrix,
+    cols: &[u32],
+    x: &[f64],
+    y: &mut [f64],
+    parallelism: Parallelism,
+) {
+    let p = a.pattern.as_ref();
+    debug_assert_eq!(cols.len(), p.col_idx.len());
+    let row = |i: usize| {
+        let (start, end) = (p.row_ptr[i], p.row_ptr[i + 1]);
+        let mut s = 0.0;
+        for (v, &c) in a.values[start..end].iter().zip(&cols[start..end]) {
+            s += v * x[c as usize];
+        }
+        s
+    };
+    if parallelism.is_parallel() && p.n_rows > 2048 {
+        y.par_iter_mut()
+            .enumerate()
+            .with_min_len(512)
+            .for_each(|(i, yi)| *yi = row(i));
+    } else {
+        for (i, yi) in y.iter_mut().enumerate() {
+            *yi = row(i);
+        }
+    }
+}
+
 /// Dot product (sequential, deterministic).
 pub(crate) fn dot(x: &[f64], y: &[f64]) -> f64 {
     x.iter().zip(y).map(|(a, b)| a * b).sum()
@@ -380,5 +412,41 @@ impl LinearSolver for BiCgStab {
 
     fn name(&self) -> String {
         format!("bicgstab/{}", self.core.preconditioner.name())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use std::sync::Arc;
+
+    use super::*;
+    use crate::csr::CsrPattern;
+
+    /// The `u32`-index product is the `usize`-index one to the last bit, sequential and
+    /// threaded.
+    #[test]
+    fn u32_index_product_is_the_usize_one() {
+        let n = 5000;
+        let rows: Vec<Vec<usize>> = (0..n)
+            .map(|i| {
+                let mut r: Vec<usize> =
+                    [i, (i * 7 + 3) % n, (i * 13 + 1) % n, (i + n - 1) % n].to_vec();
+                r.sort_unstable();
+                r.dedup();
+                r
+            })
+            .collect();
+        let mut a = CsrMatrix::zeros(Arc::new(CsrPattern::from_rows(n, rows)));
+        for (k, v) in a.values.iter_mut().enumerate() {
+            *v = ((k * 37 % 101) as f64 - 50.0) / 7.3;
+        }
+        let cols: Vec<u32> = a.pattern.col_idx.iter().map(|&c| c as u32).collect();
+        let x: Vec<f64> = (0..n).map(|i| ((i * 11 % 17) as f64).sin()).collect();
+        for par in [Parallelism::Sequential, Parallelism::Rayon { threads: 2 }] {
+            let (mut y, mut y32) = (vec![0.0; n], vec![0.0; n]);
+            spmv(&a, &x, &mut y, par);
+            spmv_u32(&a, &cols, &x, &mut y32, par);
+            assert!(y.iter().zip(&y32).all(|(p, q)| p.to_bits() == q.to_bits()));
+        }
     }
 }

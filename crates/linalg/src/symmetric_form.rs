@@ -32,7 +32,7 @@ use rayon::prelude::*;
 use crate::csr::{CsrMatrix, CsrPattern};
 use crate::direct::{check_rhs_len, DirectParams};
 use crate::gmres::gmres_iterate;
-use crate::krylov::{spmv, KrylovParams};
+use crate::krylov::{spmv, spmv_u32, KrylovParams};
 use crate::ldlt::{FaerLdlt, LdltPivoting, SignedPivots};
 use crate::lu::FaerLu;
 use crate::ordering::Ordering;
@@ -258,6 +258,9 @@ pub struct SymmetricFormSolver {
     requested: Option<f64>,
     /// The current `J`, for the LU fallback and for refreshing the preconditioner.
     jac: Option<CsrMatrix>,
+    /// The column indices of `J`'s pattern as `u32`, for GMRES's products (None: too many
+    /// columns for `u32`).
+    cols32: Option<Vec<u32>>,
     lu: Option<FaerLu>,
     lu_factored: bool,
     /// The transform and the values of `J` the current preconditioner was built from (its
@@ -281,6 +284,7 @@ impl SymmetricFormSolver {
             last_iterations: 0,
             requested: None,
             jac: None,
+            cols32: None,
             lu: None,
             lu_factored: false,
             built_from: None,
@@ -407,6 +411,7 @@ impl SymmetricFormSolver {
             return Err(missing_factor());
         };
         let d = &self.d;
+        let cols32 = self.cols32.as_deref();
         let n = rhs.len();
         let mut y = vec![0.0; n];
         for (i, &b) in rhs.iter().enumerate() {
@@ -428,7 +433,10 @@ impl SymmetricFormSolver {
             for ((u, xi), di) in dx.iter_mut().zip(x).zip(d) {
                 *u = xi * di;
             }
-            spmv(jac, &dx, &mut jdx, solve_par);
+            match cols32 {
+                Some(cols) => spmv_u32(jac, cols, &dx, &mut jdx, solve_par),
+                None => spmv(jac, &dx, &mut jdx, solve_par),
+            }
             for (i, (v, s)) in jdx.iter().zip(&t.scale).enumerate() {
                 let r = t.target[i];
                 out[r] = d[r] * s * v;
@@ -595,6 +603,11 @@ impl LinearSolver for SymmetricFormSolver {
             return Err(LinalgError::Usage("matrix is not square".into()));
         }
         self.pattern = Some(Arc::new(pattern.clone()));
+        self.cols32 = pattern
+            .col_idx
+            .iter()
+            .map(|&c| u32::try_from(c).ok())
+            .collect();
         self.structure = None;
         self.ldlt = None;
         self.lu = None;
