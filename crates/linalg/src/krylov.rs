@@ -130,16 +130,7 @@ pub(crate) fn spmv(a: &CsrMatrix, x: &[f64], y: &mut [f64], parallelism: Paralle
         }
         s
     };
-    if parallelism.is_parallel() && p.n_rows > 2048 {
-        y.par_iter_mut()
-            .enumerate()
-            .with_min_len(512)
-            .for_each(|(i, yi)| *yi = row(i));
-    } else {
-        for (i, yi) in y.iter_mut().enumerate() {
-            *yi = row(i);
-        }
-    }
+    each_row(y, parallelism, row);
 }
 
 /// [`spmv`] with the column indices of `a`'s pattern given as `u32` (`cols`, the same
@@ -162,7 +153,13 @@ pub(crate) fn spmv_u32(
         }
         s
     };
-    if parallelism.is_parallel() && p.n_rows > 2048 {
+    each_row(y, parallelism, row);
+}
+
+/// `y_i = row(i)` for every row, over blocks of rows on rayon's threads when `parallelism`
+/// allows it and there are more than 2 048 rows (each row alone: the same values either way).
+fn each_row(y: &mut [f64], parallelism: Parallelism, row: impl Fn(usize) -> f64 + Sync) {
+    if parallelism.is_parallel() && y.len() > 2048 {
         y.par_iter_mut()
             .enumerate()
             .with_min_len(512)
