@@ -174,6 +174,36 @@ impl From<&PointOutput> for UnstrainedOutput {
     }
 }
 
+/// The non-finite input error of [`CoupledPointLaw::evaluate`] (checked in this order:
+/// concentration, strain when there is one, potential gradient, concentration gradient).
+#[inline(always)]
+fn check_inputs(
+    c: f64,
+    strain: Option<&Voigt>,
+    grad_mu: &Vector3<f64>,
+    grad_c: &Vector3<f64>,
+) -> Result<(), RangeError> {
+    let non_finite = |quantity| {
+        Err(RangeError::NonFinite {
+            law: RangeLaw::Input,
+            quantity,
+        })
+    };
+    if !c.is_finite() {
+        return non_finite("concentration");
+    }
+    if strain.is_some_and(|e| !e.iter().all(|v| v.is_finite())) {
+        return non_finite("strain");
+    }
+    if !grad_mu.iter().all(|v| v.is_finite()) {
+        return non_finite("potential gradient");
+    }
+    if !grad_c.iter().all(|v| v.is_finite()) {
+        return non_finite("concentration gradient");
+    }
+    Ok(())
+}
+
 /// Relative tolerance on equal temperatures (common practice, no source).
 const TEMPERATURE_TOLERANCE: f64 = 1e-12;
 
@@ -219,19 +249,7 @@ impl CoupledPointLaw {
                 })
                 .map(|p| UnstrainedOutput::from(&p));
         }
-        let non_finite = |quantity| RangeError::NonFinite {
-            law: RangeLaw::Input,
-            quantity,
-        };
-        if !c.is_finite() {
-            return Err(non_finite("concentration"));
-        }
-        if !grad_mu.iter().all(|v| v.is_finite()) {
-            return Err(non_finite("potential gradient"));
-        }
-        if !grad_c.iter().all(|v| v.is_finite()) {
-            return Err(non_finite("concentration gradient"));
-        }
+        check_inputs(c, None, &grad_mu, &grad_c)?;
         let chem = self.parts.chemical.evaluate(c)?;
         let mob = self.parts.mobility.evaluate(c)?;
         // `evaluate` checks the stiffness law's range too.
@@ -255,22 +273,7 @@ impl CoupledPointLaw {
     /// the laws, gives a recoverable [`RangeError`].
     #[inline]
     pub fn evaluate(&self, input: &PointInput) -> Result<PointOutput, RangeError> {
-        let non_finite = |quantity| RangeError::NonFinite {
-            law: RangeLaw::Input,
-            quantity,
-        };
-        if !input.c.is_finite() {
-            return Err(non_finite("concentration"));
-        }
-        if !input.strain.iter().all(|v| v.is_finite()) {
-            return Err(non_finite("strain"));
-        }
-        if !input.grad_mu.iter().all(|v| v.is_finite()) {
-            return Err(non_finite("potential gradient"));
-        }
-        if !input.grad_c.iter().all(|v| v.is_finite()) {
-            return Err(non_finite("concentration gradient"));
-        }
+        check_inputs(input.c, Some(&input.strain), &input.grad_mu, &input.grad_c)?;
         let c = input.c;
         let chem = self.parts.chemical.evaluate(c)?;
         let mob = self.parts.mobility.evaluate(c)?;

@@ -363,6 +363,7 @@ fn newton_iterations<S: DiscreteSystem>(
                 }
                 // Take it (`newton`), as plain Newton does without a line search.
                 accepted = Some((tn, tm));
+                info.backtracks += k;
                 break;
             }
             alpha *= 0.5;
