@@ -213,6 +213,7 @@ fn ramped_concentration_holds_at_every_step_end() {
             safety: 0.9,
             max_growth: 3.0,
             predictive: true,
+            newton_error_test: None,
         }),
         x0,
     );

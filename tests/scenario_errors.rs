@@ -509,3 +509,30 @@ fn finite_strain_keys_are_checked() {
         "{e}"
     );
 }
+
+#[test]
+fn the_newton_error_fraction_is_a_fraction_of_an_adaptive_tolerance() {
+    let good = format!("{BASE}\n[solver]\nnewton_error_fraction = 0.1\n");
+    let model = build_model(good, "case.toml", Path::new(".")).unwrap();
+    check_model(&model).unwrap();
+    for (value, expected) in [
+        ("1.5", "must be at most 1"),
+        ("0.0", "must be a positive number"),
+        ("-0.1", "must be a positive number"),
+    ] {
+        let text = format!("{BASE}\n[solver]\nnewton_error_fraction = {value}\n");
+        let e = error_of(&text);
+        let line = line_of(&text, "newton_error_fraction");
+        assert!(
+            e.contains(expected) && e.contains(&format!("case.toml:{line}:")),
+            "{value}: {e}"
+        );
+    }
+    let text =
+        format!("{BASE}\n[time]\nfixed_step = 1.0\n\n[solver]\nnewton_error_fraction = 0.1\n");
+    let e = error_of(&text);
+    assert!(
+        e.contains("needs adaptive steps") && e.contains("time.fixed_step"),
+        "{e}"
+    );
+}

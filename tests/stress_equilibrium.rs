@@ -229,6 +229,7 @@ fn run(nx: usize, ny: usize) -> Outcome {
             safety: 0.9,
             max_growth: 2.0,
             predictive: true,
+            newton_error_test: None,
         }),
         newton: NewtonParams {
             abs_tol: 0.0,

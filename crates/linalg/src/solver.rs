@@ -53,6 +53,11 @@ pub trait LinearSolver: Send {
     /// tolerance again. Iterative solvers may stop there instead of at their own, tighter,
     /// tolerance, never earlier; direct solvers solve exactly and ignore it (the default).
     fn set_requested_reduction(&mut self, _reduction: Option<f64>) {}
+    /// Whether [`LinearSolver::set_requested_reduction`] can make the solves looser than the
+    /// solver's own tolerance (false for the direct solvers: the default).
+    fn follows_requested_reduction(&self) -> bool {
+        false
+    }
     /// A short human-readable name ("faer-cholesky/metis").
     fn name(&self) -> String;
     /// One line on what the solver did so far (factorisations, iterations, fallbacks), for run

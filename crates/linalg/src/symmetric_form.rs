@@ -712,6 +712,10 @@ impl LinearSolver for SymmetricFormSolver {
         self.requested = reduction.filter(|_| self.params.follow_requested_reduction);
     }
 
+    fn follows_requested_reduction(&self) -> bool {
+        self.params.follow_requested_reduction
+    }
+
     fn name(&self) -> String {
         format!("gmres/symmetric-ldlt/{}", self.params.ordering.name())
     }

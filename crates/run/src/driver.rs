@@ -705,6 +705,7 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
             safety: 0.9,
             max_growth: 2.0,
             predictive: true,
+            newton_error_test: model.scenario.solver.newton_error_fraction,
         }),
     };
     IntegratorParams {

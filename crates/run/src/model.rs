@@ -1098,6 +1098,10 @@ fn check_time(scenario: &Scenario, src: Source<'_>) -> Result<(), RunError> {
         ("output.checkpoint_every", scenario.output.checkpoint_every),
         ("output.checkpoint_wall", scenario.output.checkpoint_wall),
         ("solver.newton_tolerance", scenario.solver.newton_tolerance),
+        (
+            "solver.newton_error_fraction",
+            scenario.solver.newton_error_fraction,
+        ),
     ];
     for (key, value) in positive {
         if let Some(v) = value {
@@ -1107,6 +1111,26 @@ fn check_time(scenario: &Scenario, src: Source<'_>) -> Result<(), RunError> {
                     format!("{key} = {v}: must be a positive number"),
                 )));
             }
+        }
+    }
+    if let Some(v) = scenario.solver.newton_error_fraction {
+        let key = "solver.newton_error_fraction";
+        if v > 1.0 {
+            return Err(RunError::Scenario(src.error(
+                find_key(src.text, key),
+                format!(
+                    "{key} = {v}: must be at most 1 (a fraction of the step's error tolerance)"
+                ),
+            )));
+        }
+        if t.fixed_step.is_some() {
+            return Err(RunError::Scenario(src.error(
+                find_key(src.text, key),
+                format!(
+                    "{key} needs adaptive steps (its unit is the step's error tolerance), \
+                     but time.fixed_step is set"
+                ),
+            )));
         }
     }
     Ok(())

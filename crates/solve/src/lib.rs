@@ -12,7 +12,9 @@ pub use coupled::{
 };
 pub mod newton;
 
-pub use newton::{newton, newton_in_step, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
+pub use newton::{
+    newton, newton_in_step, CorrectionTest, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams,
+};
 pub mod problem;
 
 pub use problem::{BoundaryLoad, BulkLaw, FieldProblem};

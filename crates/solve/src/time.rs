@@ -21,7 +21,9 @@
 //! predictive factor of Gustafsson when the last accepted step has an estimate of the same
 //! order (see `predictive_factor`).
 
-use crate::newton::{newton_in_step, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams};
+use crate::newton::{
+    newton_in_step, CorrectionTest, DiscreteSystem, NewtonError, NewtonInfo, NewtonParams,
+};
 use dilata_linalg::LinearSolver;
 
 /// A discrete system with a time derivative.
@@ -104,6 +106,12 @@ pub struct AdaptiveParams {
     pub max_growth: f64,
     /// Also bound the next step by Gustafsson's predictive factor (see `predictive_factor`).
     pub predictive: bool,
+    /// Also let Newton stop when the error it leaves is at most this fraction of the local
+    /// error tolerance ([`CorrectionTest`]; `None`: the residual test alone). The weights are
+    /// those of the error estimate for the unknowns that carry a rate, and `1/(rtol · m_b)` for
+    /// the others, `m_b` the largest magnitude of their block (`DiscreteSystem::blocks`) in
+    /// the last accepted state or the block's scale, whichever is larger.
+    pub newton_error_test: Option<f64>,
 }
 
 /// Parameters of the integrator.
@@ -260,6 +268,16 @@ impl Integrator {
         let mut error_rejected = false;
         let n = self.state.x.len();
         let mut history = vec![0.0; n];
+        let weights = match self.params.sizing {
+            StepSizing::Adaptive(a) => a
+                .newton_error_test
+                .map(|c| (self.correction_weights(system, &a), c)),
+            StepSizing::Fixed { .. } => None,
+        };
+        let test = weights.as_ref().map(|(w, c)| CorrectionTest {
+            weights: w,
+            coefficient: *c,
+        });
         loop {
             // Land exactly on t_stop; avoid a sliver step just before it.
             let remaining = t_stop - self.state.t;
@@ -283,7 +301,8 @@ impl Integrator {
             let rule = self.rate_coefficients_into(dt, order, &mut history);
             system.begin_step(t_new, rule.a0, &history);
             let mut x = self.predict(dt, order);
-            let attempt = newton_in_step(system, solver, &mut x, &self.params.newton);
+            let attempt =
+                newton_in_step(system, solver, &mut x, &self.params.newton, test.as_ref());
             let info = match attempt {
                 Ok(info) => info,
                 Err(e) => {
@@ -428,6 +447,27 @@ impl Integrator {
             pts.push((*t, x));
         }
         lagrange_extrapolate(&pts, t1)
+    }
+
+    /// Weights of the Newton correction test (see `AdaptiveParams::newton_error_test`).
+    fn correction_weights<S: TransientSystem>(&self, system: &S, a: &AdaptiveParams) -> Vec<f64> {
+        let x = &self.state.x;
+        let mut w = vec![0.0; x.len()];
+        for (b, scale) in system.blocks().into_iter().zip(system.block_scales()) {
+            let m = x[b.clone()]
+                .iter()
+                .fold(0.0_f64, |m, v| m.max(v.abs()))
+                .max(scale);
+            let algebraic = if m > 0.0 { 1.0 / (a.rtol * m) } else { 0.0 };
+            for i in b {
+                w[i] = if system.is_dynamic(i) {
+                    1.0 / (a.atol + a.rtol * x[i].abs())
+                } else {
+                    algebraic
+                };
+            }
+        }
+        w
     }
 
     /// Weighted local error norm, or None when there is not enough history for a predictor.

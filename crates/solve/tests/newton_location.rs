@@ -108,7 +108,7 @@ fn a_stalled_line_search_fails_a_time_step_at_once_and_a_static_solve_runs_on() 
     solver.analyze(&sys.pattern).unwrap();
     // In a time step: the first iteration finds no decrease down to 2^-8 and stops.
     let mut x = vec![0.0];
-    match newton_in_step(&mut sys, &mut solver, &mut x, &params).unwrap_err() {
+    match newton_in_step(&mut sys, &mut solver, &mut x, &params, None).unwrap_err() {
         NewtonError::Stalled {
             iteration, alpha, ..
         } => {

@@ -594,4 +594,8 @@ pub struct SolverSpec {
     /// always at its own tight tolerance; used by the `"symmetric"` solver only.
     #[serde(default)]
     pub inexact_newton: bool,
+    /// Let Newton also stop when its remaining error, estimated from the contraction of its
+    /// corrections, is below this fraction of the time step's error tolerance (adaptive steps
+    /// only; absent: the residual test alone).
+    pub newton_error_fraction: Option<f64>,
 }
