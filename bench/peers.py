@@ -130,6 +130,7 @@ def run_solver(name, a, b, basis, free, problem):
             lambda: analyze(csc, mode="supernodal", ordering_method=ordering))
         out["factor_s"], _ = timed(lambda: factor.cholesky_inplace(csc))
         out["solve_s"], x = timed(lambda: factor(b))
+        out["_factor"] = factor
     elif name == "amg-cg":
         import pyamg
         near_null = None if problem == "poisson2d-q1" else rigid_body_modes(basis, free)
@@ -156,6 +157,9 @@ def main():
                         help="quadrature degree (match the kernels being compared)")
     parser.add_argument("--repeat", type=int, default=3,
                         help="repetitions of the stiffness assembly (best reported)")
+    parser.add_argument("--factor-nnz", action="store_true",
+                        help="CHOLMOD: after the peak memory is recorded, extract L to count "
+                             "its stored entries (a copy of L: slow and memory-hungry)")
     args = parser.parse_args()
     problem = args.problem
 
@@ -211,6 +215,10 @@ def main():
         "peak_rss_after_assembly_mib": rss_after_assembly,
         "peak_rss_mib": peak_rss_mib(),
     }
+    factor = record.pop("_factor", None)
+    if factor is not None and args.factor_nnz:
+        # Lower triangle with the diagonal, as faer's len_val counts it.
+        record["factor_nnz"] = int(factor.L().nnz)
     print(json.dumps(record))
 
 

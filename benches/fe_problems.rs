@@ -22,6 +22,8 @@
 //! * `elast3d-q1`: the same on Hex8 (size 40: 206 763 DOFs).
 //!
 //! Solvers: `chol-nd`, `chol-amd` (faer Cholesky with METIS nested dissection or AMD),
+//! `chol-nd-mixed`, `chol-amd-mixed` (the same factored in single precision, each solve refined
+//! in double precision to LAPACK's backward-error test; `iterations` = refinement steps),
 //! `cg-jacobi`, `cg-ilu0` (conjugate gradients, relative tolerance 1e-8), `none`.
 
 use std::time::Instant;
@@ -87,7 +89,8 @@ impl Problem {
 /// Linear solver choices.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 enum SolverChoice {
-    Cholesky(Ordering),
+    /// Sparse Cholesky; `true`: factored in single precision with refinement.
+    Cholesky(Ordering, bool),
     Cg(Preconditioner),
     None,
 }
@@ -95,8 +98,10 @@ enum SolverChoice {
 impl SolverChoice {
     fn from_name(name: &str) -> Option<Self> {
         match name {
-            "chol-nd" => Some(SolverChoice::Cholesky(Ordering::NestedDissection)),
-            "chol-amd" => Some(SolverChoice::Cholesky(Ordering::Amd)),
+            "chol-nd" => Some(SolverChoice::Cholesky(Ordering::NestedDissection, false)),
+            "chol-amd" => Some(SolverChoice::Cholesky(Ordering::Amd, false)),
+            "chol-nd-mixed" => Some(SolverChoice::Cholesky(Ordering::NestedDissection, true)),
+            "chol-amd-mixed" => Some(SolverChoice::Cholesky(Ordering::Amd, true)),
             "cg-jacobi" => Some(SolverChoice::Cg(Preconditioner::Jacobi)),
             "cg-ilu0" => Some(SolverChoice::Cg(Preconditioner::Ilu0)),
             "none" => Some(SolverChoice::None),
@@ -123,7 +128,7 @@ struct Options {
 fn usage() -> ! {
     eprintln!(
         "usage: fe_problems --problem poisson2d-q1|elast3d-p1|elast3d-q1 --size N \
-         [--threads 1,2] [--repeat 3] [--solver chol-nd|chol-amd|cg-jacobi|cg-ilu0|none] \
+         [--threads 1,2] [--repeat 3] [--solver chol-nd|chol-amd|chol-nd-mixed|chol-amd-mixed|cg-jacobi|cg-ilu0|none] \
          [--solver-threads 1]"
     );
     std::process::exit(2)
@@ -134,7 +139,7 @@ fn parse_options() -> Options {
     let mut size = None;
     let mut threads = vec![1, 2];
     let mut repeat = 3;
-    let mut solver = SolverChoice::Cholesky(Ordering::NestedDissection);
+    let mut solver = SolverChoice::Cholesky(Ordering::NestedDissection, false);
     let mut solver_threads = 1;
     let mut args = std::env::args().skip(1);
     while let Some(arg) = args.next() {
@@ -366,11 +371,12 @@ fn run_phases<S: LinearSolver>(solver: &mut S, a: &CsrMatrix, b: &[f64]) -> Solv
 fn run_solver(choice: SolverChoice, threads: usize, a: &CsrMatrix, b: &[f64]) -> SolverReport {
     let par = parallelism(threads);
     match choice {
-        SolverChoice::Cholesky(ordering) => {
+        SolverChoice::Cholesky(ordering, mixed) => {
             let mut solver = FaerCholesky::new(DirectParams {
                 ordering,
                 parallelism: par,
             });
+            solver.set_single_precision_factor(mixed);
             let mut report = run_phases(&mut solver, a, b);
             report.factor_nnz = solver.stats().factor_nnz;
             report

@@ -93,13 +93,34 @@ pub(crate) fn missing_factor() -> LinalgError {
 /// Sparse Cholesky `A = LLᵀ` (supernodal or simplicial, as faer's symbolic analysis decides)
 /// for symmetric positive definite matrices. A matrix that is not numerically positive
 /// definite gives [`LinalgError::Singular`] with the failing pivot in original numbering.
+///
+/// Optionally ([`FaerCholesky::set_single_precision_factor`]) the factorisation runs in single
+/// precision and each solve refines its result in double precision until the residual is at
+/// the level of a double-precision backward-stable solve; a matrix too ill-conditioned for that
+/// is factored in double precision instead (see there).
 pub struct FaerCholesky {
     params: DirectParams,
     state: Option<SymbolicState>,
     l_values: Vec<f64>,
     factored: bool,
     stats: DirectStats,
+    /// Factor in single precision and refine (see `set_single_precision_factor`).
+    single: bool,
+    /// The single-precision factor's values (kept allocated), and whether the current
+    /// factorisation is that one.
+    l_single: Vec<f32>,
+    single_ready: bool,
+    /// The factored matrix and its infinity norm, for the refinement's residuals.
+    matrix: Option<(CsrMatrix, f64)>,
+    /// Refinement steps of all solves so far, and matrices factored again in double precision
+    /// because the single-precision path failed.
+    refinements: usize,
+    double_fallbacks: usize,
 }
+
+/// Largest number of refinement steps of one solve before the factorisation is redone in
+/// double precision (30 in LAPACK's `DSPOSV`, from memory).
+const MAX_REFINEMENTS: usize = 30;
 
 impl FaerCholesky {
     /// A Cholesky solver with the given ordering and threads.
@@ -110,7 +131,157 @@ impl FaerCholesky {
             l_values: Vec::new(),
             factored: false,
             stats: DirectStats::default(),
+            single: false,
+            l_single: Vec::new(),
+            single_ready: false,
+            matrix: None,
+            refinements: 0,
+            double_fallbacks: 0,
         }
+    }
+
+    /// Factor in single precision and refine each solve in double precision (mixed-precision
+    /// iterative refinement as in LAPACK's `DSPOSV`; Langou, Luszczek, Kurzak, Buttari and
+    /// Dongarra, "Exploiting the performance of 32 bit floating point arithmetic in obtaining
+    /// 64 bit accuracy", SC'06, from memory). The single-precision factorisation moves half the
+    /// bytes and runs at twice the vector width; each refinement step costs a single-precision
+    /// solve and a product with `A`. A solve stops when its residual satisfies LAPACK's test
+    /// `‖b − A x‖∞ ≤ ‖x‖∞ ‖A‖∞ ε` (ε of double precision; LAPACK's own test has a further
+    /// factor `√n`, which on 3D elasticity with 53k unknowns stopped at a relative residual of
+    /// 9e-11 against 1.5e-12 for the double-precision factorisation, one step earlier). The
+    /// factorisation is redone in double precision when the
+    /// single-precision one fails (an entry beyond its range, a non-positive pivot, a matrix
+    /// singular to single precision by the probe of `factor`) or a solve does not meet
+    /// the test within `MAX_REFINEMENTS` steps or stops improving. Off by default; the factor
+    /// and a copy of the matrix values are kept.
+    pub fn set_single_precision_factor(&mut self, on: bool) {
+        self.single = on;
+    }
+
+    /// Refinement steps of all solves so far and the matrices factored again in double
+    /// precision (see [`FaerCholesky::set_single_precision_factor`]).
+    pub fn refinement_stats(&self) -> (usize, usize) {
+        (self.refinements, self.double_fallbacks)
+    }
+
+    /// `rhs := (LLᵀ)⁻¹ rhs` with the single-precision factor, `rhs` scaled to unit max norm
+    /// for the rounding to `f32` and scaled back.
+    fn apply_single_factor(&mut self, rhs: &mut [f64], buf: &mut Vec<f32>) {
+        let state = self.state.as_mut().expect("analysed");
+        let l = &self.l_single;
+        let n = state.pattern.n();
+        let scale = rhs.iter().fold(0.0_f64, |m, v| m.max(v.abs()));
+        if scale == 0.0 || !scale.is_finite() {
+            return;
+        }
+        buf.clear();
+        buf.extend(rhs.iter().map(|v| (v / scale) as f32));
+        LltRef::<usize, f32>::new(&state.symbolic, l).solve_in_place_with_conj(
+            Conj::No,
+            MatMut::from_column_major_slice_mut(buf, n, 1),
+            self.params.parallelism.to_faer(),
+            MemStack::new(&mut state.mem),
+        );
+        for (r, &v) in rhs.iter_mut().zip(buf.iter()) {
+            *r = v as f64 * scale;
+        }
+    }
+
+    /// Solve `A x = b` (`rhs`: `b` on entry, `x` on return) by refinement with the
+    /// single-precision factor; `Ok(steps)`, or `Err(())` when the test is not met.
+    fn refine(&mut self, rhs: &mut [f64]) -> Result<usize, ()> {
+        let (a, a_norm) = self.matrix.take().expect("matrix kept");
+        let result = self.refine_with(&a, a_norm, rhs);
+        self.matrix = Some((a, a_norm));
+        result
+    }
+
+    fn refine_with(&mut self, a: &CsrMatrix, a_norm: f64, rhs: &mut [f64]) -> Result<usize, ()> {
+        let n = rhs.len();
+        let b = rhs.to_vec();
+        let mut x = vec![0.0; n];
+        let mut r = b.clone();
+        let mut d = vec![0.0; n];
+        let mut buf = Vec::with_capacity(n);
+        let inf = |v: &[f64]| v.iter().fold(0.0_f64, |m, x| m.max(x.abs()));
+        let bound = |x: &[f64]| inf(x) * a_norm * f64::EPSILON;
+        let mut previous = f64::INFINITY;
+        for step in 1..=MAX_REFINEMENTS {
+            d.copy_from_slice(&r);
+            self.apply_single_factor(&mut d, &mut buf);
+            for (xi, di) in x.iter_mut().zip(&d) {
+                *xi += di;
+            }
+            a.mul_vec_into(&x, &mut r);
+            for (ri, bi) in r.iter_mut().zip(&b) {
+                *ri = bi - *ri;
+            }
+            let rn = inf(&r);
+            if !rn.is_finite() {
+                return Err(());
+            }
+            if rn <= bound(&x) {
+                rhs.copy_from_slice(&x);
+                return Ok(step);
+            }
+            // Stagnation: the single-precision factor no longer reduces the residual.
+            if step > 2 && rn > 0.5 * previous {
+                return Err(());
+            }
+            previous = rn;
+        }
+        Err(())
+    }
+
+    /// Factor `matrix` in single precision; false when that fails (the caller then factors
+    /// in double precision).
+    fn factor_single(&mut self, matrix: &CsrMatrix) -> bool {
+        let state = self.state.as_mut().expect("analysed");
+        if matrix.values.iter().any(|v| v.abs() > f32::MAX as f64) {
+            return false;
+        }
+        let values: Vec<f32> = matrix.values.iter().map(|&v| v as f32).collect();
+        self.l_single.resize(state.symbolic.len_val(), 0.0);
+        let a = faer_view(&matrix.pattern, &values);
+        let result = state.symbolic.factorize_numeric_llt(
+            &mut self.l_single,
+            a,
+            FAER_SIDE,
+            Default::default(),
+            self.params.parallelism.to_faer(),
+            MemStack::new(&mut state.mem),
+            Default::default(),
+        );
+        self.stats.n_factorizations += 1;
+        if result.is_err() {
+            return false;
+        }
+        let p = matrix.pattern.as_ref();
+        let a_norm = (0..p.n_rows)
+            .map(|i| {
+                matrix.values[p.row_ptr[i]..p.row_ptr[i + 1]]
+                    .iter()
+                    .map(|v| v.abs())
+                    .sum::<f64>()
+            })
+            .fold(0.0_f64, f64::max);
+        self.single_ready = true;
+        self.matrix = Some((matrix.clone(), a_norm));
+        // Probe: a matrix singular to single precision (cond ≥ 1/ε_f32 by the lower bound of
+        // `check_probe`) cannot be refined. (A refinement that fails later, in a solve, also
+        // sends the matrix to double precision.)
+        let b = probe_rhs(p.n_rows);
+        let mut y = b.clone();
+        let mut buf = Vec::new();
+        self.apply_single_factor(&mut y, &mut buf);
+        let inf = |v: &[f64]| v.iter().fold(0.0_f64, |m, x| m.max(x.abs()));
+        let conditioned = y.iter().all(|v| v.is_finite())
+            && a_norm * inf(&y) / inf(&b) < 1.0 / f32::EPSILON as f64;
+        if !conditioned {
+            self.single_ready = false;
+            self.matrix = None;
+        }
+        conditioned
     }
 
     /// Counts of analyses and factorisations, and the size of `L`.
@@ -145,7 +316,8 @@ impl LinearSolver for FaerCholesky {
         let state = analyze_symmetric(pattern, self.params, SupernodalThreshold::AUTO, |s| {
             s.factorize_numeric_llt_scratch::<f64>(par, Default::default())
         })?;
-        self.l_values = vec![0.0; state.symbolic.len_val()];
+        self.l_values = Vec::new();
+        self.l_single = Vec::new();
         self.stats.n_analyses += 1;
         self.stats.factor_nnz = state.symbolic.len_val();
         self.state = Some(state);
@@ -154,8 +326,21 @@ impl LinearSolver for FaerCholesky {
 
     fn factor(&mut self, matrix: &CsrMatrix) -> Result<(), LinalgError> {
         self.factored = false;
+        self.single_ready = false;
+        self.matrix = None;
         let state = self.state.as_mut().ok_or_else(missing_analysis)?;
         state.pattern.check(matrix)?;
+        if self.single {
+            if self.factor_single(matrix) {
+                self.factored = true;
+                return Ok(());
+            }
+            self.double_fallbacks += 1;
+        }
+        let state = self.state.as_mut().ok_or_else(missing_analysis)?;
+        // Allocated at the first double-precision factorisation (a mixed-precision solver may
+        // never need it).
+        self.l_values.resize(state.symbolic.len_val(), 0.0);
         let a = faer_view(&matrix.pattern, &matrix.values);
         let result = state.symbolic.factorize_numeric_llt(
             &mut self.l_values,
@@ -190,6 +375,28 @@ impl LinearSolver for FaerCholesky {
             return Err(missing_factor());
         }
         check_rhs_len(state.pattern.n(), rhs)?;
+        if self.single_ready {
+            let b = rhs.to_vec();
+            match self.refine(rhs) {
+                Ok(steps) => {
+                    self.refinements += steps;
+                    return Ok(SolveInfo {
+                        iterations: steps,
+                        residual: None,
+                    });
+                }
+                Err(()) => {
+                    // Factor this matrix again in double precision and solve directly.
+                    let (a, _) = self.matrix.take().expect("matrix kept");
+                    self.double_fallbacks += 1;
+                    let single = std::mem::replace(&mut self.single, false);
+                    let result = self.factor(&a);
+                    self.single = single;
+                    result?;
+                    rhs.copy_from_slice(&b);
+                }
+            }
+        }
         self.apply_factor(rhs)?;
         Ok(SolveInfo {
             iterations: 0,
@@ -198,6 +405,10 @@ impl LinearSolver for FaerCholesky {
     }
 
     fn name(&self) -> String {
-        format!("faer-cholesky/{}", self.params.ordering.name())
+        if self.single {
+            format!("faer-cholesky-mixed/{}", self.params.ordering.name())
+        } else {
+            format!("faer-cholesky/{}", self.params.ordering.name())
+        }
     }
 }

@@ -500,3 +500,79 @@ fn lu_solves_badly_scaled_rows() {
         assert!(err <= 1e-8, "{ordering:?}: relative error {err:e}");
     }
 }
+
+/// Mixed precision (`set_single_precision_factor`, LAPACK `DSPOSV`'s scheme, from memory): the
+/// refined solution meets the same checks as a double-precision solve and the stopping test
+/// `‖b − A x‖∞ ≤ ‖x‖∞ ‖A‖∞ ε`, with refinement steps and no fallback on well-conditioned
+/// Laplacians; a matrix beyond single precision (the scaled Laplacian of
+/// `ill_conditioned_but_regular_is_accepted`, cond ~1e10 > 1/ε_f32) is factored in double
+/// precision instead and still solved; a singular one is still rejected.
+#[test]
+fn mixed_precision_cholesky_refines_to_double_precision_or_falls_back() {
+    let inf = |v: &[f64]| v.iter().fold(0.0_f64, |m, x| m.max(x.abs()));
+    for a in [laplacian_2d(40, 30), laplacian_3d(12)] {
+        let mut s = FaerCholesky::new(DirectParams::with_ordering(Ordering::NestedDissection));
+        s.set_single_precision_factor(true);
+        assert!(s.name().contains("mixed"), "{}", s.name());
+        analyze_factor(&mut s, &a).expect("factor");
+        let info = check_solves(&mut s, &a);
+        assert!(info.iterations >= 1, "{info:?}");
+        let (steps, fallbacks) = s.refinement_stats();
+        assert!(
+            steps >= 2 && fallbacks == 0,
+            "{steps} steps, {fallbacks} fallbacks"
+        );
+        let x_true = manufactured_x(a.n_rows());
+        let b = a.mul_vec(&x_true);
+        let mut x = b.clone();
+        s.solve_in_place(&mut x).unwrap();
+        let ax = a.mul_vec(&x);
+        let r: Vec<f64> = ax.iter().zip(&b).map(|(p, q)| q - p).collect();
+        let p = a.pattern.as_ref();
+        let a_norm = (0..p.n_rows)
+            .map(|i| {
+                a.values[p.row_ptr[i]..p.row_ptr[i + 1]]
+                    .iter()
+                    .map(|v| v.abs())
+                    .sum::<f64>()
+            })
+            .fold(0.0_f64, f64::max);
+        let bound = inf(&x) * a_norm * f64::EPSILON;
+        assert!(inf(&r) <= bound, "residual {:e} above {bound:e}", inf(&r));
+    }
+    // Beyond single precision: factored in double precision.
+    let a = laplacian_2d(10, 10);
+    let n = a.n_rows();
+    let d: Vec<f64> = (0..n)
+        .map(|i| 10f64.powf(-4.0 * i as f64 / (n - 1) as f64))
+        .collect();
+    let mut scaled = a.clone();
+    let p = a.pattern.clone();
+    for i in 0..n {
+        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
+            scaled.values[k] *= d[i] * d[p.col_idx[k]];
+        }
+    }
+    let mut s = FaerCholesky::new(DirectParams::default());
+    s.set_single_precision_factor(true);
+    analyze_factor(&mut s, &scaled).expect("regular matrix must factor");
+    let x_true = manufactured_x(n);
+    let b = scaled.mul_vec(&x_true);
+    let mut x = b.clone();
+    s.solve_in_place(&mut x).unwrap();
+    assert_eq!(
+        s.refinement_stats().1,
+        1,
+        "one fallback to double precision"
+    );
+    assert!(relative_residual(&scaled, &x, &b) <= 1e-10);
+    // The next solve uses the double-precision factor directly.
+    let mut x = b.clone();
+    assert_eq!(s.solve_in_place(&mut x).unwrap().iterations, 0);
+    assert_eq!(s.refinement_stats().1, 1);
+    // Singular: still rejected.
+    let mut s = FaerCholesky::new(DirectParams::default());
+    s.set_single_precision_factor(true);
+    let r = analyze_factor(&mut s, &neumann_laplacian_2d(8, 6));
+    assert!(matches!(r, Err(LinalgError::Singular { .. })), "{r:?}");
+}
