@@ -145,12 +145,11 @@ impl FaerCholesky {
     /// Dongarra, "Exploiting the performance of 32 bit floating point arithmetic in obtaining
     /// 64 bit accuracy", SC'06, from memory). The single-precision factorisation moves half the
     /// bytes and runs at twice the vector width; each refinement step costs a single-precision
-    /// solve and a product with `A`. A solve stops when its residual satisfies LAPACK's test
-    /// `‖b − A x‖∞ ≤ ‖x‖∞ ‖A‖∞ ε` (ε of double precision; LAPACK's own test has a further
-    /// factor `√n`, which on 3D elasticity with 53k unknowns stopped at a relative residual of
-    /// 9e-11 against 1.5e-12 for the double-precision factorisation, one step earlier). The
-    /// factorisation is redone in double precision when the
-    /// single-precision one fails (an entry beyond its range, a non-positive pivot, a matrix
+    /// solve and a product with `A`. A solve stops when `‖b − A x‖∞ ≤ ‖x‖∞ ‖A‖∞ ε` (ε of double
+    /// precision): `DSPOSV`'s test without its factor `√n`, which on 3D elasticity with 53k
+    /// unknowns stopped one step earlier, at a relative residual of 9e-11 against 1.5e-12 for
+    /// the double-precision factorisation (7.5e-13 without it). The factorisation is redone in
+    /// double precision when the single-precision one fails (an entry beyond its range, a non-positive pivot, a matrix
     /// singular to single precision by the probe of `factor`) or a solve does not meet
     /// the test within `MAX_REFINEMENTS` steps or stops improving. Off by default; the factor
     /// and a copy of the matrix values are kept.
@@ -336,6 +335,7 @@ impl LinearSolver for FaerCholesky {
                 return Ok(());
             }
             self.double_fallbacks += 1;
+            self.l_single = Vec::new();
         }
         let state = self.state.as_mut().ok_or_else(missing_analysis)?;
         // Allocated at the first double-precision factorisation (a mixed-precision solver may
@@ -389,6 +389,7 @@ impl LinearSolver for FaerCholesky {
                     // Factor this matrix again in double precision and solve directly.
                     let (a, _) = self.matrix.take().expect("matrix kept");
                     self.double_fallbacks += 1;
+                    self.l_single = Vec::new();
                     let single = std::mem::replace(&mut self.single, false);
                     let result = self.factor(&a);
                     self.single = single;

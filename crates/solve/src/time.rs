@@ -458,7 +458,12 @@ impl Integrator {
                 .iter()
                 .fold(0.0_f64, |m, v| m.max(v.abs()))
                 .max(scale);
-            let algebraic = if m > 0.0 { 1.0 / (a.rtol * m) } else { 0.0 };
+            // No relative tolerance, or a block that is zero: its unknowns are not measured.
+            let algebraic = if m > 0.0 && a.rtol > 0.0 {
+                1.0 / (a.rtol * m)
+            } else {
+                0.0
+            };
             for i in b {
                 w[i] = if system.is_dynamic(i) {
                     1.0 / (a.atol + a.rtol * x[i].abs())
