@@ -18,7 +18,8 @@ use faer::{Conj, MatMut, Side};
 
 use crate::csr::{CsrMatrix, CsrPattern};
 use crate::direct::{
-    check_finite, check_probe, check_rhs_len, probe_rhs, AnalysedPattern, DirectParams, DirectStats,
+    check_finite, check_probe, check_rhs_len, condition_lower_bound, infinity_norm, probe_rhs,
+    AnalysedPattern, DirectParams, DirectStats,
 };
 use crate::ordering::{build_permutation, Permutation};
 use crate::solver::{LinalgError, LinearSolver, SolveInfo};
@@ -80,6 +81,28 @@ pub(crate) fn faer_view<'a, T>(
     let n = pattern.n_rows;
     let a = SymbolicSparseColMatRef::new_checked(n, n, &pattern.row_ptr, None, &pattern.col_idx);
     SparseColMatRef::new(a, values)
+}
+
+/// faer's numeric `LLᵀ` of `values` (on `pattern`) into `l`, in the precision `T`.
+fn factor_llt<T: faer::traits::RealField>(
+    state: &mut SymbolicState,
+    l: &mut [T],
+    pattern: &CsrPattern,
+    values: &[T],
+    params: DirectParams,
+) -> Result<(), LltError> {
+    state
+        .symbolic
+        .factorize_numeric_llt(
+            l,
+            faer_view(pattern, values),
+            FAER_SIDE,
+            Default::default(),
+            params.parallelism.to_faer(),
+            MemStack::new(&mut state.mem),
+            Default::default(),
+        )
+        .map(|_| ())
 }
 
 pub(crate) fn missing_analysis() -> LinalgError {
@@ -241,41 +264,29 @@ impl FaerCholesky {
         }
         let values: Vec<f32> = matrix.values.iter().map(|&v| v as f32).collect();
         self.l_single.resize(state.symbolic.len_val(), 0.0);
-        let a = faer_view(&matrix.pattern, &values);
-        let result = state.symbolic.factorize_numeric_llt(
+        let result = factor_llt(
+            state,
             &mut self.l_single,
-            a,
-            FAER_SIDE,
-            Default::default(),
-            self.params.parallelism.to_faer(),
-            MemStack::new(&mut state.mem),
-            Default::default(),
+            &matrix.pattern,
+            &values,
+            self.params,
         );
         self.stats.n_factorizations += 1;
         if result.is_err() {
             return false;
         }
-        let p = matrix.pattern.as_ref();
-        let a_norm = (0..p.n_rows)
-            .map(|i| {
-                matrix.values[p.row_ptr[i]..p.row_ptr[i + 1]]
-                    .iter()
-                    .map(|v| v.abs())
-                    .sum::<f64>()
-            })
-            .fold(0.0_f64, f64::max);
+        let a_norm = infinity_norm(matrix);
         self.single_ready = true;
         self.matrix = Some((matrix.clone(), a_norm));
         // Probe: a matrix singular to single precision (cond ≥ 1/ε_f32 by the lower bound of
         // `check_probe`) cannot be refined. (A refinement that fails later, in a solve, also
         // sends the matrix to double precision.)
-        let b = probe_rhs(p.n_rows);
+        let b = probe_rhs(matrix.n_rows());
         let mut y = b.clone();
         let mut buf = Vec::new();
         self.apply_single_factor(&mut y, &mut buf);
-        let inf = |v: &[f64]| v.iter().fold(0.0_f64, |m, x| m.max(x.abs()));
         let conditioned = y.iter().all(|v| v.is_finite())
-            && a_norm * inf(&y) / inf(&b) < 1.0 / f32::EPSILON as f64;
+            && condition_lower_bound(a_norm, &b, &y) < 1.0 / f32::EPSILON as f64;
         if !conditioned {
             self.single_ready = false;
             self.matrix = None;
@@ -341,15 +352,12 @@ impl LinearSolver for FaerCholesky {
         // Allocated at the first double-precision factorisation (a mixed-precision solver may
         // never need it).
         self.l_values.resize(state.symbolic.len_val(), 0.0);
-        let a = faer_view(&matrix.pattern, &matrix.values);
-        let result = state.symbolic.factorize_numeric_llt(
+        let result = factor_llt(
+            state,
             &mut self.l_values,
-            a,
-            FAER_SIDE,
-            Default::default(),
-            self.params.parallelism.to_faer(),
-            MemStack::new(&mut state.mem),
-            Default::default(),
+            &matrix.pattern,
+            &matrix.values,
+            self.params,
         );
         self.stats.n_factorizations += 1;
         if let Err(LltError::NonPositivePivot { index }) = result {

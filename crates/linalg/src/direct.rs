@@ -146,22 +146,32 @@ pub(crate) fn probe_rhs(n: usize) -> Vec<f64> {
 /// pivot and is caught here.
 pub(crate) fn check_probe(a: &CsrMatrix, b: &[f64], x: &[f64]) -> Result<(), LinalgError> {
     check_finite(x)?;
+    if condition_lower_bound(infinity_norm(a), b, x) >= 1.0 / f64::EPSILON {
+        return Err(LinalgError::Singular { pivot: None });
+    }
+    Ok(())
+}
+
+/// `‖A‖_∞`, the largest absolute row sum.
+pub(crate) fn infinity_norm(a: &CsrMatrix) -> f64 {
     let p = a.pattern.as_ref();
-    let a_norm = (0..p.n_rows)
+    (0..p.n_rows)
         .map(|i| {
             a.values[p.row_ptr[i]..p.row_ptr[i + 1]]
                 .iter()
                 .map(|v| v.abs())
                 .sum::<f64>()
         })
-        .fold(0.0f64, f64::max);
+        .fold(0.0f64, f64::max)
+}
+
+/// The lower bound `‖A‖_∞ ‖x‖_∞ / ‖b‖_∞` of `cond_∞(A)` from a solve `A x = b` (see
+/// [`check_probe`]); 0 for `b = 0`.
+pub(crate) fn condition_lower_bound(a_norm: f64, b: &[f64], x: &[f64]) -> f64 {
     let inf_norm = |v: &[f64]| v.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-    let (b_norm, x_norm) = (inf_norm(b), inf_norm(x));
+    let b_norm = inf_norm(b);
     if b_norm == 0.0 {
-        return Ok(());
+        return 0.0;
     }
-    if a_norm * x_norm / b_norm >= 1.0 / f64::EPSILON {
-        return Err(LinalgError::Singular { pivot: None });
-    }
-    Ok(())
+    a_norm * inf_norm(x) / b_norm
 }

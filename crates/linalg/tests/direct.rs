@@ -243,10 +243,9 @@ fn pure_neumann_laplacian_is_singular_for_every_direct_solver() {
     }
 }
 
-#[test]
-fn ill_conditioned_but_regular_is_accepted() {
-    // D A D with D from 1 down to 1e-4 on a 2D Laplacian: cond about 1e8 x cond(A) ~ 1e10,
-    // well below 1/ε ~ 4.5e15, so the singularity probe must not fire.
+/// `D A D` with `D` from 1 down to 1e-4 on a 10 × 10 2D Laplacian: condition about 1e8 ×
+/// cond(A) ~ 1e10, regular in double precision, beyond single precision.
+fn scaled_laplacian() -> CsrMatrix {
     let a = laplacian_2d(10, 10);
     let n = a.n_rows();
     let d: Vec<f64> = (0..n)
@@ -259,6 +258,14 @@ fn ill_conditioned_but_regular_is_accepted() {
             scaled.values[k] *= d[i] * d[p.col_idx[k]];
         }
     }
+    scaled
+}
+
+#[test]
+fn ill_conditioned_but_regular_is_accepted() {
+    // D A D with D from 1 down to 1e-4 on a 2D Laplacian: cond about 1e8 x cond(A) ~ 1e10,
+    // well below 1/ε ~ 4.5e15, so the singularity probe must not fire.
+    let scaled = scaled_laplacian();
     let params = DirectParams::default();
     let mut solvers: Vec<Box<dyn LinearSolver>> = vec![
         Box::new(FaerCholesky::new(params)),
@@ -541,18 +548,8 @@ fn mixed_precision_cholesky_refines_to_double_precision_or_falls_back() {
         assert!(inf(&r) <= bound, "residual {:e} above {bound:e}", inf(&r));
     }
     // Beyond single precision: factored in double precision.
-    let a = laplacian_2d(10, 10);
-    let n = a.n_rows();
-    let d: Vec<f64> = (0..n)
-        .map(|i| 10f64.powf(-4.0 * i as f64 / (n - 1) as f64))
-        .collect();
-    let mut scaled = a.clone();
-    let p = a.pattern.clone();
-    for i in 0..n {
-        for k in p.row_ptr[i]..p.row_ptr[i + 1] {
-            scaled.values[k] *= d[i] * d[p.col_idx[k]];
-        }
-    }
+    let scaled = scaled_laplacian();
+    let n = scaled.n_rows();
     let mut s = FaerCholesky::new(DirectParams::default());
     s.set_single_precision_factor(true);
     analyze_factor(&mut s, &scaled).expect("regular matrix must factor");
