@@ -394,6 +394,21 @@ fn spinodal_benchmark_initial_energy() {
     assert!(rel < 5e-7, "initial energy {energy} vs {exact}");
 }
 
+/// One aging stage of `duration` with `reject_energy_rise` and no snapshots.
+fn aging_window(duration: f64) -> String {
+    format!(
+        r#"
+[[stage]]
+name = "age"
+duration = {duration:?}
+[time]
+reject_energy_rise = true
+[output]
+fields = false
+"#
+    )
+}
+
 /// Acceptance 4, second part (the short window the issue allows for CI): benchmark 1 on a
 /// 40 × 40 quad9 mesh (h = 5, nodes 2.5 apart against an interface width of 2.2) from t = 0 to
 /// 40 with
@@ -402,16 +417,7 @@ fn spinodal_benchmark_initial_energy() {
 /// 200 × 200 mesh is the benchmark of docs/performance.md.
 #[test]
 fn spinodal_benchmark_energy_decays_monotonically() {
-    let extra = r#"
-[[stage]]
-name = "age"
-duration = 40.0
-[time]
-reject_energy_rise = true
-[output]
-fields = false
-"#;
-    let (_model, _summary, dir) = run_text(&benchmark_one(40, extra));
+    let (_model, _summary, dir) = run_text(&benchmark_one(40, &aging_window(40.0)));
     let rows = history(dir.path());
     let energy = column(&rows, "free_energy_j");
     let amount = column(&rows, "amount_mol");
@@ -437,15 +443,7 @@ fields = false
 /// 7.8e-15, energies 1.2e-8 apart.
 #[test]
 fn spinodal_window_with_the_newton_error_test_conserves_amount() {
-    let window = r#"
-[[stage]]
-name = "age"
-duration = 150.0
-[time]
-reject_energy_rise = true
-[output]
-fields = false
-"#;
+    let window = &aging_window(150.0);
     let solver = "[solver]\ninexact_newton = true\n";
     let (_m, _s, tight_dir) = run_text(&(benchmark_one(40, window) + solver));
     let (_m, _s, dir) =
