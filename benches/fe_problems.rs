@@ -24,7 +24,10 @@
 //! Solvers: `chol-nd`, `chol-amd` (faer Cholesky with METIS nested dissection or AMD),
 //! `chol-nd-mixed`, `chol-amd-mixed` (the same factored in single precision, each solve refined
 //! in double precision to LAPACK's backward-error test; `iterations` = refinement steps),
-//! `cg-jacobi`, `cg-ilu0` (conjugate gradients, relative tolerance 1e-8), `none`.
+//! `cg-jacobi`, `cg-ilu0` (conjugate gradients, relative tolerance 1e-8), `none`; with the
+//! Cargo features of the same names, `russell-direct` (feature `russell`), `umfpack`, `mumps`
+//! (russell_sparse's back-ends; analysis and factorisation are one call there, timed as the
+//! factorisation).
 
 use std::time::Instant;
 
@@ -92,6 +95,9 @@ enum SolverChoice {
     /// Sparse Cholesky; `true`: factored in single precision with refinement.
     Cholesky(Ordering, bool),
     Cg(Preconditioner),
+    /// A russell_sparse solver (Cargo features `russell`, `umfpack`, `mumps`).
+    #[cfg(feature = "russell")]
+    Russell(dilata_linalg::RussellGenie),
     None,
 }
 
@@ -105,6 +111,12 @@ impl SolverChoice {
             "cg-jacobi" => Some(SolverChoice::Cg(Preconditioner::Jacobi)),
             "cg-ilu0" => Some(SolverChoice::Cg(Preconditioner::Ilu0)),
             "none" => Some(SolverChoice::None),
+            #[cfg(feature = "russell")]
+            "russell-direct" => Some(SolverChoice::Russell(dilata_linalg::RussellGenie::Direct)),
+            #[cfg(feature = "umfpack")]
+            "umfpack" => Some(SolverChoice::Russell(dilata_linalg::RussellGenie::Umfpack)),
+            #[cfg(feature = "mumps")]
+            "mumps" => Some(SolverChoice::Russell(dilata_linalg::RussellGenie::Mumps)),
             _ => None,
         }
     }
@@ -388,6 +400,10 @@ fn run_solver(choice: SolverChoice, threads: usize, a: &CsrMatrix, b: &[f64]) ->
                 ..KrylovParams::default()
             };
             run_phases(&mut Cg::new(pre, params, par), a, b)
+        }
+        #[cfg(feature = "russell")]
+        SolverChoice::Russell(genie) => {
+            run_phases(&mut dilata_linalg::RussellSolver::new(genie), a, b)
         }
         SolverChoice::None => SolverReport {
             name: "none".into(),

@@ -45,6 +45,8 @@ pub mod lu;
 pub mod ordering;
 pub mod parallel;
 pub mod precond;
+#[cfg(feature = "russell")]
+pub mod russell;
 pub mod solver;
 pub mod symmetric_form;
 
@@ -59,6 +61,8 @@ pub use lu::FaerLu;
 pub use ordering::{build_permutation, Ordering, Permutation};
 pub use parallel::Parallelism;
 pub use precond::Preconditioner;
+#[cfg(feature = "russell")]
+pub use russell::{RussellGenie, RussellSolver};
 pub use solver::{LinalgError, LinearSolver, SolveInfo};
 pub use symmetric_form::{
     RowTransform, SymmetricFormParams, SymmetricFormSolver, SymmetricFormStats,
