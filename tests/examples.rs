@@ -779,11 +779,17 @@ fn swelling_particle_charges_at_the_faraday_time_and_triples_its_volume() {
     assert!((small.stages[0].end - charge.end).abs() < 2e-6 * charge.end);
 }
 
+/// The count written before `label` in the solver line of a run summary ("...: N matrices, ...
+/// with M GMRES iterations, ...").
+fn activity_count(summary: &RunSummary, label: &str) -> usize {
+    let line = summary.solver_activity.as_deref().unwrap_or_default();
+    let before = line.split(label).next().unwrap();
+    before.rsplit(' ').next().unwrap().parse().unwrap()
+}
+
 /// GMRES iterations from the solver line of a run summary.
 fn gmres_iterations(summary: &RunSummary) -> usize {
-    let line = summary.solver_activity.as_deref().unwrap_or_default();
-    let before = line.split(" GMRES iterations").next().unwrap();
-    before.rsplit(' ').next().unwrap().parse().unwrap()
+    activity_count(summary, " GMRES iterations")
 }
 
 /// The notched plate (dilute mobility: its mass rows are nonlinear) once more with
@@ -804,11 +810,9 @@ fn notched_plate_with_inexact_newton_keeps_its_mass_balance() {
     assert!(bi < 1e-10, "mass balance error {bi:e}");
 }
 
-/// Jacobians the linear solver received (its activity line: "...: N matrices, ...").
+/// Jacobians the linear solver received.
 fn matrices(summary: &RunSummary) -> usize {
-    let line = summary.solver_activity.as_deref().unwrap_or_default();
-    let before = line.split(" matrices").next().unwrap();
-    before.rsplit(' ').next().unwrap().parse().unwrap()
+    activity_count(summary, " matrices")
 }
 
 /// The notched plate with inexact Newton stopped by the step's error tolerance

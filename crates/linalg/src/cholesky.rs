@@ -210,7 +210,8 @@ impl FaerCholesky {
     }
 
     /// Solve `A x = b` (`rhs`: `b` on entry, `x` on return) by refinement with the
-    /// single-precision factor; `Ok(steps)`, or `Err(())` when the test is not met.
+    /// single-precision factor; `Ok(steps)`, or `Err(())` when the test is not met, with `rhs`
+    /// left unchanged.
     fn refine(&mut self, rhs: &mut [f64]) -> Result<usize, ()> {
         let (a, a_norm) = self.matrix.take().expect("matrix kept");
         let result = self.refine_with(&a, a_norm, rhs);
@@ -384,7 +385,7 @@ impl LinearSolver for FaerCholesky {
         }
         check_rhs_len(state.pattern.n(), rhs)?;
         if self.single_ready {
-            let b = rhs.to_vec();
+            // A failed refinement leaves `rhs` as it was (`b`).
             match self.refine(rhs) {
                 Ok(steps) => {
                     self.refinements += steps;
@@ -402,7 +403,6 @@ impl LinearSolver for FaerCholesky {
                     let result = self.factor(&a);
                     self.single = single;
                     result?;
-                    rhs.copy_from_slice(&b);
                 }
             }
         }
