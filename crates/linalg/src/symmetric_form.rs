@@ -210,21 +210,66 @@ impl Structure {
             row_ptr,
             col_idx,
         };
-        let mut rows: Vec<Vec<usize>> = (0..n).map(|r| a_pattern.row(r).to_vec()).collect();
+        // `S = A + Aᵀ` row by row, merging row `r` of `A` with row `r` of `Aᵀ` (both sorted),
+        // and the places of each entry of `A` in it, in time linear in the entries (the
+        // version with a vector per row and a search per entry took 90–110 ms on the charging
+        // particle's 1.3 M entries).
+        let nnz = a_pattern.nnz();
+        // `Aᵀ` by counting: for each column, the rows holding it (ascending) and their entries.
+        let mut t_ptr = vec![0usize; n + 1];
+        for &c in &a_pattern.col_idx {
+            t_ptr[c + 1] += 1;
+        }
+        for c in 0..n {
+            t_ptr[c + 1] += t_ptr[c];
+        }
+        let mut fill = t_ptr.clone();
+        let mut t_row = vec![0usize; nnz];
+        let mut t_entry = vec![0usize; nnz];
         for r in 0..n {
-            for &c in a_pattern.row(r) {
-                rows[c].push(r);
+            for k in a_pattern.row_ptr[r]..a_pattern.row_ptr[r + 1] {
+                let c = a_pattern.col_idx[k];
+                t_row[fill[c]] = r;
+                t_entry[fill[c]] = k;
+                fill[c] += 1;
             }
         }
-        let s_pattern = CsrPattern::from_rows(n, rows);
-        let mut s_pos = Vec::with_capacity(a_pattern.nnz());
+        let mut row_ptr = Vec::with_capacity(n + 1);
+        row_ptr.push(0);
+        let mut col_idx = Vec::with_capacity(nnz + nnz / 8);
+        let mut s_pos = vec![[0usize; 2]; nnz];
         for r in 0..n {
-            for &c in a_pattern.row(r) {
-                let rc = s_pattern.find(r, c).expect("closure holds (r, c)");
-                let cr = s_pattern.find(c, r).expect("closure holds (c, r)");
-                s_pos.push([rc, cr]);
+            let (mut ka, ea) = (a_pattern.row_ptr[r], a_pattern.row_ptr[r + 1]);
+            let (mut kt, et) = (t_ptr[r], t_ptr[r + 1]);
+            while ka < ea || kt < et {
+                let ca = if ka < ea {
+                    a_pattern.col_idx[ka]
+                } else {
+                    usize::MAX
+                };
+                let ct = if kt < et { t_row[kt] } else { usize::MAX };
+                let col = ca.min(ct);
+                let here = col_idx.len();
+                col_idx.push(col);
+                if ca == col {
+                    // Entry (r, col) of A.
+                    s_pos[ka][0] = here;
+                    ka += 1;
+                }
+                if ct == col {
+                    // Entry (col, r) of A: its transpose place.
+                    s_pos[t_entry[kt]][1] = here;
+                    kt += 1;
+                }
             }
+            row_ptr.push(col_idx.len());
         }
+        let s_pattern = CsrPattern {
+            n_rows: n,
+            n_cols: n,
+            row_ptr,
+            col_idx,
+        };
         Structure {
             target: t.target.clone(),
             signs: t.signs.clone(),
@@ -786,5 +831,54 @@ impl SymmetricFormSolver {
             }
         }
         self.lu_solve(rhs)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The structure of `S = A + Aᵀ`, `A = T J`, against a direct construction: a pattern that
+    /// is not structurally symmetric (with empty rows) and a row permutation with cycles.
+    #[test]
+    fn structure_is_the_symmetric_closure_of_the_permuted_pattern() {
+        let n = 40;
+        // Row i of J holds i, (7 i + 3) mod n and (i * i) mod n when i is not a multiple of 9.
+        let rows: Vec<Vec<usize>> = (0..n)
+            .map(|i| {
+                if i % 9 == 4 {
+                    Vec::new()
+                } else {
+                    vec![i, (7 * i + 3) % n, (i * i) % n]
+                }
+            })
+            .collect();
+        let j = CsrPattern::from_rows(n, rows);
+        let target: Vec<usize> = (0..n).map(|i| (i * 13 + 5) % n).collect();
+        let t = RowTransform {
+            target: target.clone(),
+            scale: vec![1.0; n],
+            signs: vec![1; n],
+        };
+        let st = Structure::build(&j, &t);
+        // A: row target[i] is row i of J.
+        let mut expected: Vec<Vec<usize>> = vec![Vec::new(); n];
+        for (i, &r) in target.iter().enumerate() {
+            for &c in j.row(i) {
+                expected[r].push(c);
+                expected[c].push(r);
+            }
+        }
+        let s_expected = CsrPattern::from_rows(n, expected);
+        assert_eq!(*st.s_pattern, s_expected);
+        for r in 0..n {
+            assert_eq!(st.a_pattern.row(r), j.row(st.a_row_src[r]));
+            for k in st.a_pattern.row_ptr[r]..st.a_pattern.row_ptr[r + 1] {
+                let c = st.a_pattern.col_idx[k];
+                assert_eq!(j.col_idx[st.a_src[k]], c);
+                assert_eq!(Some(st.s_pos[k][0]), s_expected.find(r, c));
+                assert_eq!(Some(st.s_pos[k][1]), s_expected.find(c, r));
+            }
+        }
     }
 }
