@@ -222,7 +222,7 @@ struct Coupled<'a> {
 
 /// Jacobian-with-residual and residual-only passes of a coupled kernel, 1 and 2 threads.
 fn coupled_group(c: &mut Criterion, name: &str, problem: &Coupled<'_>) {
-    use dilata_physics::coupled::{CoupledKernel, RateTerm};
+    use dilata_physics::coupled::{CoupledKernel, RateTerm, TangentPart};
     let Coupled {
         mesh,
         dofs,
@@ -248,6 +248,7 @@ fn coupled_group(c: &mut Criterion, name: &str, problem: &Coupled<'_>) {
         body_force: None,
         potential_source: None,
         solution: x,
+        tangent: TangentPart::Whole,
     };
     let kernel = &kernel;
     let mut group = c.benchmark_group(name);

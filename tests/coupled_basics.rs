@@ -16,7 +16,7 @@ use dilata_material::swelling::{IsotropicSwellingParams, SwellingLaw};
 use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::{
-    CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
+    CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows, TangentPart,
 };
 use dilata_physics::norms::field_integral;
 use dilata_solve::coupled::CoupledProblem;
@@ -254,6 +254,7 @@ fn coupled_tangent_matches_finite_differences() {
                 body_force: None,
                 potential_source: None,
                 solution: xs,
+                tangent: TangentPart::Whole,
             };
             k.cell_into(input, &mut k.build_scratch(), out).unwrap();
         };
@@ -302,6 +303,7 @@ fn swapped_tangent_matches_finite_differences() {
                 body_force: None,
                 potential_source: None,
                 solution: xs,
+                tangent: TangentPart::Whole,
             },
             swap: RowSwap {
                 dofs: &dofs,
@@ -552,4 +554,238 @@ fn mass_balance_with_inward_flux() {
 /// ∫ c dV with the kernels' cell quadrature (see `field_integral`).
 fn amount(mesh: &Mesh, dofs: &DofMap, fields: CoupledFields, x: &[f64]) -> f64 {
     field_integral(mesh, dofs, fields.c, GeometryMode::PlaneStrain, x).unwrap()
+}
+
+/// The Jacobian assembled from the stored state-independent blocks plus the state-dependent
+/// ones (`CoupledProblem::reuse_fixed_tangent`, `TangentPart`) is the Jacobian assembled whole,
+/// to the bit: in every geometry mode, with supports, a prescribed concentration, a prescribed
+/// potential (row swap) and an exchange boundary, at several states and rate terms, and again
+/// after the constraints change. A stiffness that depends on the concentration turns the reuse
+/// off. (An identity of the implementation: no outside source.)
+#[test]
+fn fixed_tangent_blocks_add_up_to_the_whole_jacobian() {
+    use dilata_material::stiffness::LinearYoungParams;
+    use dilata_solve::newton::DiscreteSystem;
+    use dilata_solve::time::TransientSystem;
+
+    let linear_young = CoupledPointLaw::new(CoupledLawParts {
+        stiffness: StiffnessLaw::linear_young(LinearYoungParams {
+            young_at_zero: E,
+            young_at_max: 0.5 * E,
+            poisson: NU,
+            c_max: C_MAX,
+        })
+        .unwrap(),
+        ..*lattice_law().parts()
+    })
+    .unwrap();
+    let quad8 = |origin: [f64; 2]| {
+        rectangle(&RectangleParams {
+            origin,
+            lengths: [2e-6, 1e-6],
+            n_cells: [4, 3],
+            kind: CellKind::Quad8,
+        })
+        .unwrap()
+    };
+    let hex = cuboid(&BoxParams {
+        origin: [0.0; 3],
+        lengths: [1e-6; 3],
+        n_cells: [2, 2, 2],
+        kind: CellKind::Hex8,
+    })
+    .unwrap();
+    let (plane, axisym) = (quad8([0.0, 0.0]), quad8([0.5e-6, 0.0]));
+    let cases: Vec<(&str, &Mesh, GeometryMode, CoupledPointLaw, bool)> = vec![
+        (
+            "plane strain",
+            &plane,
+            GeometryMode::PlaneStrain,
+            lattice_law(),
+            true,
+        ),
+        (
+            "plane stress",
+            &plane,
+            GeometryMode::PlaneStress,
+            dilute_law(true),
+            true,
+        ),
+        (
+            "axisymmetric",
+            &axisym,
+            GeometryMode::Axisymmetric,
+            lattice_law(),
+            true,
+        ),
+        (
+            "3D",
+            &hex,
+            GeometryMode::ThreeD,
+            with_gradient(lattice_law(), nalgebra::Matrix3::identity() * 1e-12),
+            true,
+        ),
+        (
+            "linear Young",
+            &plane,
+            GeometryMode::PlaneStrain,
+            linear_young,
+            false,
+        ),
+    ];
+    // Each case with and without the assembler's entry table (its two scatters).
+    let cases = cases
+        .into_iter()
+        .flat_map(|c| [(c, true), (c, false)]);
+    for ((name, mesh, mode, law, reusable), table) in cases {
+        let build = |reuse: bool| {
+            let u_order = if mesh.dim == 3 { 1 } else { 2 };
+            let (dofs, fields) = common::coupled_dofs(mesh, u_order);
+            let mut p = CoupledProblem::new(
+                mesh,
+                dofs,
+                fields,
+                mode,
+                LawMap::uniform(law, mesh.n_cells()),
+                Parallelism::Sequential,
+            );
+            p.reuse_fixed_tangent = reuse;
+            // The reference (whole) assembly keeps the table.
+            if reuse && !table {
+                p.assembler.drop_entry_table();
+            }
+            let fixed = [
+                ("left", fields.u, 0, 0.0),
+                ("bottom", fields.u, 1, 0.0),
+                ("top", fields.mu, 0, 150.0),
+                ("right", fields.c, 0, 1.1 * C0),
+            ];
+            for (boundary, field, component, value) in fixed {
+                p.constraints
+                    .add_boundary(
+                        mesh,
+                        &p.dofs,
+                        BoundaryTarget {
+                            boundary,
+                            field,
+                            component,
+                        },
+                        value,
+                    )
+                    .unwrap();
+            }
+            p.loads.push((
+                mesh.boundary("right").unwrap().to_vec(),
+                BoundaryLoad::Exchange {
+                    rate: 1e-9,
+                    outside: 2.0 * C0,
+                },
+            ));
+            p.check_setup().unwrap();
+            p
+        };
+        let (mut reused, mut whole) = (build(true), build(false));
+        let fields = reused.fields;
+        let n = reused.dofs.n_dofs();
+        let mut jr = reused.assembler.build_matrix();
+        let mut jw = whole.assembler.build_matrix();
+        let (mut rr, mut rw) = (vec![0.0; n], vec![0.0; n]);
+        let compare = |reused: &mut CoupledProblem<'_>,
+                       whole: &mut CoupledProblem<'_>,
+                       jr: &mut dilata_linalg::CsrMatrix,
+                       jw: &mut dilata_linalg::CsrMatrix,
+                       rr: &mut [f64],
+                       rw: &mut [f64],
+                       k: usize| {
+            let mut x = uniform_state(mesh, &reused.dofs, fields, C0);
+            for (node, p) in mesh.points.iter().enumerate() {
+                let (s, t) = (p[0] / 2e-6, p[1] / 1e-6 + 0.3 * k as f64);
+                for comp in 0..mesh.dim {
+                    let d = reused.dofs.node_dof(fields.u, node, comp).unwrap();
+                    x[d] = 1e-9 * (s * t + 0.2 * comp as f64 + 0.1 * k as f64);
+                }
+                if let Ok(d) = reused.dofs.node_dof(fields.c, node, 0) {
+                    x[d] = C0 * (1.0 + 0.3 * s * s - 0.2 * t + 0.1 * k as f64);
+                }
+                if let Ok(d) = reused.dofs.node_dof(fields.mu, node, 0) {
+                    x[d] = 1e3 * (s - t * t);
+                }
+            }
+            let history: Vec<f64> = x.iter().map(|v| -0.7 * v).collect();
+            let a0 = 10.0 * (k + 1) as f64;
+            reused.begin_step(0.0, a0, &history);
+            whole.begin_step(0.0, a0, &history);
+            // A residual alone in between (as a line search does) keeps the stored blocks.
+            reused.residual_into(&x, rr).unwrap();
+            reused.assemble_into(&x, jr, rr).unwrap();
+            whole.assemble_into(&x, jw, rw).unwrap();
+            assert_eq!(reused.used_fixed_tangent(), reusable, "{name}");
+            assert!(!whole.used_fixed_tangent(), "{name}");
+            let same_bits = jr
+                .values
+                .iter()
+                .zip(&jw.values)
+                .all(|(a, b)| a.to_bits() == b.to_bits());
+            assert!(same_bits, "{name}, state {k}: Jacobians differ");
+            assert!(jw.values.iter().any(|v| *v != 0.0));
+            assert_eq!(rr, rw, "{name}, state {k}: residuals differ");
+        };
+        for k in 0..3 {
+            compare(
+                &mut reused,
+                &mut whole,
+                &mut jr,
+                &mut jw,
+                &mut rr,
+                &mut rw,
+                k,
+            );
+        }
+        assert_eq!(
+            reused.fixed_tangent_assemblies(),
+            usize::from(reusable),
+            "{name}"
+        );
+        // A new stage: the potential is no longer prescribed (no row swap), the
+        // concentration is.
+        for p in [&mut reused, &mut whole] {
+            let mut constraints = dilata_fem::Constraints::new(n);
+            for (boundary, field, component) in [
+                ("left", fields.u, 0),
+                ("bottom", fields.u, 1),
+                ("top", fields.c, 0),
+            ] {
+                constraints
+                    .add_boundary(
+                        mesh,
+                        &p.dofs,
+                        BoundaryTarget {
+                            boundary,
+                            field,
+                            component,
+                        },
+                        C0,
+                    )
+                    .unwrap();
+            }
+            p.constraints = constraints;
+        }
+        for k in 3..5 {
+            compare(
+                &mut reused,
+                &mut whole,
+                &mut jr,
+                &mut jw,
+                &mut rr,
+                &mut rw,
+                k,
+            );
+        }
+        assert_eq!(
+            reused.fixed_tangent_assemblies(),
+            2 * usize::from(reusable),
+            "{name}"
+        );
+        assert_eq!(whole.fixed_tangent_assemblies(), 0);
+    }
 }

@@ -20,7 +20,7 @@ use dilata_material::mobility::{
 use dilata_mesh::generate::{cuboid, rectangle, BoxParams, RectangleParams};
 use dilata_mesh::{CellKind, Mesh};
 use dilata_physics::coupled::{
-    CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
+    CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows, TangentPart,
 };
 use dilata_physics::coupled_post::{coupled_integrals, recover_coupled_nodal, CoupledPost};
 use dilata_solve::coupled::CoupledProblem;
@@ -189,6 +189,7 @@ fn kernel_at<'a>(
         body_force: None,
         potential_source: None,
         solution: xs,
+        tangent: TangentPart::Whole,
     }
 }
 

@@ -72,6 +72,13 @@ pub trait CellKernel: Sync {
         scratch: &mut Self::Scratch,
         out: LocalOutput<'_>,
     ) -> Result<(), Self::Error>;
+
+    /// The local indices outside of which every row and every column of this kernel's local
+    /// matrix is zero on cells of `kind` (`None`: anywhere). The scatter then adds only that
+    /// block to the global matrix: it skips additions of zeros, and the sums are the same.
+    fn matrix_support(&self, _kind: CellKind) -> Option<std::ops::Range<usize>> {
+        None
+    }
 }
 
 /// A boundary kernel: computes local contributions of one facet (sized for its parent cell).
@@ -320,15 +327,44 @@ impl Assembler {
         }
     }
 
+    /// [`Self::begin`] with the matrix set to `base` instead of zero: for a caller that adds the
+    /// cells' contributions to a part of the matrix it assembled earlier (on this assembler's
+    /// pattern, without [`Self::finish`]).
+    ///
+    /// # Panics
+    /// If `base` does not have one value per entry of the pattern.
+    pub fn begin_from(&self, target: &mut AssemblyTarget<'_>, base: &[f64]) {
+        if let Some(m) = target.matrix.as_deref_mut() {
+            assert!(
+                Arc::ptr_eq(&m.pattern, &self.pattern) || *m.pattern == *self.pattern,
+                "matrix not on the assembler's pattern"
+            );
+            assert_eq!(base.len(), m.values.len(), "one base value per entry");
+            self.set(&mut m.values, Some(base));
+        }
+        if let Some(v) = target.vector.as_deref_mut() {
+            v.iter_mut().for_each(|x| *x = 0.0);
+        }
+    }
+
     /// Set `values` to zero, in blocks on the assembler's threads (a matrix's values are
     /// megabytes: on one thread the zeroing was 3–5 % of the Newton assembly time of the
     /// charging-particle benchmark, measured with a temporary timer).
     fn zero(&self, values: &mut [f64]) {
+        self.set(values, None);
+    }
+
+    /// Copy `base` into `values`, or zero them without one, in blocks on the assembler's threads.
+    fn set(&self, values: &mut [f64], base: Option<&[f64]>) {
         const BLOCK: usize = 1 << 16;
+        let fill = |(i, b): (usize, &mut [f64])| match base {
+            Some(base) => b.copy_from_slice(&base[i * BLOCK..i * BLOCK + b.len()]),
+            None => b.fill(0.0),
+        };
         if values.len() <= BLOCK || matches!(self.threads, AssemblyThreads::Sequential) {
-            values.fill(0.0);
+            values.chunks_mut(BLOCK).enumerate().for_each(fill);
         } else {
-            self.install(|| values.par_chunks_mut(BLOCK).for_each(|b| b.fill(0.0)));
+            self.install(|| values.par_chunks_mut(BLOCK).enumerate().for_each(fill));
         }
     }
 
@@ -376,6 +412,8 @@ impl Assembler {
                         coords: &coords,
                         dofs: cd,
                     };
+                    let support = kernel.matrix_support(kind).unwrap_or(0..n);
+                    debug_assert!(support.end <= n);
                     let (ke, fe) = buf.zeroed(n, want_matrix, want_vector);
                     let result = kernel.cell_into(
                         &input,
@@ -399,6 +437,7 @@ impl Assembler {
                                 &shared,
                                 constraints,
                                 want_vector,
+                                support,
                             ),
                             None => scatter_local(
                                 pattern,
@@ -408,6 +447,7 @@ impl Assembler {
                                 constraints,
                                 want_matrix,
                                 want_vector,
+                                support,
                             ),
                         }
                     };
@@ -501,6 +541,7 @@ impl Assembler {
                     target.constraints,
                     want_matrix,
                     want_vector,
+                    0..cd.len(),
                 )
             };
         }
@@ -623,10 +664,13 @@ struct SharedTarget {
     vector: Option<SharedSlice>,
 }
 
-/// Scatter one local system into the global one, with constraint elimination.
+/// Scatter one local system into the global one, with constraint elimination. Of the local
+/// matrix only the rows and columns in `support` are added (`CellKernel::matrix_support`: the
+/// others are zero).
 ///
 /// # Safety
 /// No other thread may touch the rows of `dofs` concurrently.
+#[allow(clippy::too_many_arguments)]
 unsafe fn scatter_local(
     pattern: &CsrPattern,
     dofs: &[usize],
@@ -635,6 +679,7 @@ unsafe fn scatter_local(
     constraints: Option<(&Constraints, &[f64])>,
     want_matrix: bool,
     want_vector: bool,
+    support: std::ops::Range<usize>,
 ) {
     let n = dofs.len();
     if want_matrix {
@@ -642,7 +687,7 @@ unsafe fn scatter_local(
         // alone needs no order: sorting took a twentieth of a residual pass of the coupled
         // kernel).
         buf.order.clear();
-        buf.order.extend(0..n);
+        buf.order.extend(support.clone());
         buf.order.sort_unstable_by_key(|&a| dofs[a]);
     }
     // Most cells have no constrained DOF: then the per-entry tests below have nothing to find.
@@ -667,7 +712,7 @@ unsafe fn scatter_local(
             }
             target.vector.expect("vector requested").add(i, f);
         }
-        if want_matrix {
+        if want_matrix && support.contains(&a) {
             let m = target.matrix.expect("matrix requested");
             // Merge the sorted local columns with the row's sorted pattern columns.
             let start = pattern.row_ptr[i];
@@ -705,6 +750,7 @@ unsafe fn scatter_with_table(
     target: &SharedTarget,
     constraints: Option<(&Constraints, &[f64])>,
     want_vector: bool,
+    support: std::ops::Range<usize>,
 ) {
     let n = dofs.len();
     debug_assert_eq!(offsets.len(), n * n);
@@ -730,8 +776,12 @@ unsafe fn scatter_with_table(
             }
             target.vector.expect("vector requested").add(i, f);
         }
+        if !support.contains(&a) {
+            continue;
+        }
         let start = pattern.row_ptr[i];
-        let offs = &offsets[a * n..(a + 1) * n];
+        let offs = &offsets[a * n + support.start..a * n + support.end];
+        let (row, cols) = (&row[support.clone()], &dofs[support.clone()]);
         match constraints {
             None => {
                 for (&k, &v) in offs.iter().zip(row) {
@@ -739,7 +789,7 @@ unsafe fn scatter_with_table(
                 }
             }
             Some((cons, _)) => {
-                for ((&k, &v), &j) in offs.iter().zip(row).zip(dofs) {
+                for ((&k, &v), &j) in offs.iter().zip(row).zip(cols) {
                     if !cons.is_constrained(j) {
                         m.add(start + k as usize, v);
                     }

@@ -121,6 +121,11 @@ impl StiffnessLaw {
         StiffnessLaw { form }
     }
 
+    /// Whether the stiffness is the same at every concentration (no `dC/dc`).
+    pub fn is_constant(&self) -> bool {
+        matches!(self.form, Form::Constant(_))
+    }
+
     /// The error [`Self::evaluate`] gives at `c`, if any, without forming the stiffness (for
     /// callers that need only the range check: a body without displacement unknowns).
     #[inline]

@@ -179,6 +179,16 @@ impl LawMap {
         !self.is_finite() && self.laws.iter().all(|l| l.parts().chemical.is_convex())
     }
 
+    /// Whether the mechanical part of the small-strain tangent is the same in every state: the
+    /// laws are small-strain laws with a stiffness that does not depend on the concentration.
+    /// The swelling strain is linear in `c`, so `dσ/dε = C`, `dσ/dc = −C β` and
+    /// `dμ/dε = −C β` are then constants of each cell's law (`dilata_material::swelling::
+    /// mechanics`), and so are the kernel's `(u, u)`, `(u, c)` and `(μ, u)` blocks and the
+    /// `(μ, μ)` mass block: [`TangentPart`].
+    pub fn constant_mechanical_tangent(&self) -> bool {
+        !self.is_finite() && self.laws.iter().all(|l| l.parts().stiffness.is_constant())
+    }
+
     /// Largest scale of chemical-potential differences over the chemical laws, in J/mol
     /// (`RT` for the laws with a temperature; see `ChemicalLaw::potential_scale`).
     pub fn potential_scale(&self) -> f64 {
@@ -206,6 +216,31 @@ pub struct CoupledKernel<'a> {
     /// Manufactured-solution term: `None` in physical models.
     pub potential_source: Option<ScalarFn<'a>>,
     pub solution: &'a [f64],
+    /// Which blocks of the tangent the kernel writes (the residual is always whole).
+    pub tangent: TangentPart,
+}
+
+/// The blocks of the small-strain tangent a [`CoupledKernel`] writes.
+///
+/// Every local entry belongs to one of two sets: the *state-independent* blocks, `(u, u)`
+/// `B_aᵀ C B_b`, `(u, c)` `B_aᵀ (dσ/dc) N_b`, `(μ, u)` `−N_a (dμ/dε) B_b` and the `(μ, μ)` mass
+/// `N_a N_b`, and the *state-dependent* ones, the mass rows `(c, c)`, `(c, μ)` (rate, mobility
+/// and its derivative) and `(μ, c)` (`dμ/dc`, gradient energy). When
+/// [`LawMap::constant_mechanical_tangent`] holds, the first set is the same at every state, so a
+/// caller may assemble it once ([`TangentPart::StateIndependent`]) and add the second set of
+/// every later Jacobian to a copy of it ([`TangentPart::StateDependent`]). Each local entry
+/// is computed exactly as in [`TangentPart::Whole`] and lands in one of the two sets only, so
+/// the sum of the two assemblies is the whole Jacobian to the bit (the other set contributes
+/// exact zeros to it; `dilata-solve`'s coupled problem tests this).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+pub enum TangentPart {
+    /// Every block.
+    #[default]
+    Whole,
+    /// The state-independent blocks only (meaningful with a constant mechanical tangent).
+    StateIndependent,
+    /// The state-dependent blocks only.
+    StateDependent,
 }
 
 /// Scratch of the coupled kernel.
@@ -407,6 +442,16 @@ impl CellKernel for CoupledKernel<'_> {
     type Scratch = CoupledScratch;
     type Error = CoupledError;
 
+    /// The state-dependent blocks ([`TangentPart::StateDependent`]) lie in the `c` and `μ`
+    /// rows and columns, which follow each other in the local numbering (`u`, `c`, `μ`).
+    fn matrix_support(&self, kind: CellKind) -> Option<std::ops::Range<usize>> {
+        if self.tangent != TangentPart::StateDependent {
+            return None;
+        }
+        let [_, rc, rm] = self.local_ranges(kind);
+        (rc.end == rm.start).then_some(rc.start..rm.end)
+    }
+
     fn build_scratch(&self) -> CoupledScratch {
         let orders = [self.fields.u, self.fields.c, self.fields.mu]
             .iter()
@@ -428,6 +473,11 @@ impl CellKernel for CoupledKernel<'_> {
         out: LocalOutput<'_>,
     ) -> Result<(), CoupledError> {
         if self.laws.is_finite() {
+            debug_assert_eq!(
+                self.tangent,
+                TangentPart::Whole,
+                "finite strain has no state-independent tangent blocks"
+            );
             return crate::finite::finite_cell_into(self, input, s, out);
         }
         // The point loop with the displacement components and the Voigt rows that can be
@@ -508,6 +558,11 @@ impl CoupledKernel<'_> {
         } = out;
         let law = self.laws.law(input.id);
         let has_gradient = !law.parts().gradient.is_zero();
+        let (fixed_blocks, varying_blocks) = match self.tangent {
+            TangentPart::Whole => (true, true),
+            TangentPart::StateIndependent => (true, false),
+            TangentPart::StateDependent => (false, true),
+        };
         for q in 0..cv.n_points() {
             let w = cv.jxw[q];
             let r = cv.points[q][0];
@@ -591,7 +646,7 @@ impl CoupledKernel<'_> {
             }
             if let Some(ke) = matrix.as_deref_mut() {
                 let at = |row: usize, col: usize| row * n_loc + col;
-                if let Some(p) = p.as_ref() {
+                if let Some(p) = p.as_ref().filter(|_| fixed_blocks) {
                     // B_b, C B_b and (∂μ/∂ε) B_b once per node and point.
                     b_all.clear();
                     cb_all.clear();
@@ -634,13 +689,15 @@ impl CoupledKernel<'_> {
                     }
                 }
                 // Mass rows, and the gradient part of the potential rows.
-                rows.tangent(ke, &terms, has_gradient);
+                if varying_blocks {
+                    rows.tangent(ke, &terms, has_gradient);
+                }
                 // Potential rows.
                 // (Row slices, with the products in the order of the formulas.)
                 for a in 0..nmn {
                     let row = &mut ke[at(rm.start + a, 0)..at(rm.start + a + 1, 0)];
                     let va = vm[a];
-                    if NC > 0 {
+                    if NC > 0 && fixed_blocks {
                         let cols = &mut row[ru.start..ru.start + mub_all.len() * NC];
                         for (k, mub) in cols.chunks_exact_mut(NC).zip(mub_all.iter()) {
                             for j in 0..NC {
@@ -648,17 +705,21 @@ impl CoupledKernel<'_> {
                             }
                         }
                     }
-                    let vd = va * sp.dmu_dc;
-                    for (k, &vb) in row[rc.start..rc.start + ncn].iter_mut().zip(vc) {
-                        *k -= vd * vb * w;
+                    if varying_blocks {
+                        let vd = va * sp.dmu_dc;
+                        for (k, &vb) in row[rc.start..rc.start + ncn].iter_mut().zip(vc) {
+                            *k -= vd * vb * w;
+                        }
                     }
-                    for (k, &vb) in row[rm.start..rm.start + nmn].iter_mut().zip(vm) {
-                        *k += va * vb * w;
+                    if fixed_blocks {
+                        for (k, &vb) in row[rm.start..rm.start + nmn].iter_mut().zip(vm) {
+                            *k += va * vb * w;
+                        }
                     }
                 }
             }
         }
-        if let Some(ke) = matrix {
+        if let Some(ke) = matrix.filter(|_| fixed_blocks) {
             // The lower block triangle of the momentum block from its upper one (the buffer is
             // zero on entry, `LocalOutput`, and nothing else writes there).
             for a in 0..nu_m {
@@ -790,6 +851,15 @@ pub struct SwappedRows<'a, K> {
 impl<K: CellKernel> CellKernel for SwappedRows<'_, K> {
     type Scratch = K::Scratch;
     type Error = K::Error;
+
+    /// The inner kernel's when it holds the `c` and `μ` rows the swap exchanges; else none.
+    fn matrix_support(&self, kind: CellKind) -> Option<std::ops::Range<usize>> {
+        let support = self.inner.matrix_support(kind)?;
+        let rc = self.swap.dofs.local_range(self.swap.fields.c, kind);
+        let rm = self.swap.dofs.local_range(self.swap.fields.mu, kind);
+        let holds = |r: &std::ops::Range<usize>| support.start <= r.start && r.end <= support.end;
+        (holds(&rc) && holds(&rm)).then_some(support)
+    }
 
     fn build_scratch(&self) -> K::Scratch {
         self.inner.build_scratch()

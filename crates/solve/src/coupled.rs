@@ -16,7 +16,7 @@ use dilata_fem::{Assembler, AssemblyTarget, Constraints, GeometryMode, Paralleli
 use dilata_linalg::{CsrMatrix, CsrPattern, RowTransform};
 use dilata_mesh::{Facet, Mesh};
 use dilata_physics::coupled::{
-    CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows,
+    CoupledError, CoupledFields, CoupledKernel, LawMap, RateTerm, RowSwap, SwappedRows, TangentPart,
 };
 use dilata_physics::coupled_post::{
     coupled_integrals_on, recover_coupled_nodal_on, CoupledPost, PostThreads,
@@ -115,6 +115,26 @@ pub struct CoupledProblem<'m> {
     n_swapped: usize,
     /// Wall time spent in Newton's residual and Jacobian assemblies so far.
     assembly_seconds: f64,
+    /// Assemble the Jacobian's state-independent blocks once per set of constraints and add
+    /// only the state-dependent ones at every Jacobian, when the laws have a constant
+    /// mechanical tangent (`LawMap::constant_mechanical_tangent`; `TangentPart`). The matrix is
+    /// the same to the bit either way. Default true; false assembles every block every time.
+    pub reuse_fixed_tangent: bool,
+    fixed_tangent: Option<FixedTangent>,
+    fixed_tangent_used: bool,
+    fixed_tangent_assemblies: usize,
+}
+
+/// The state-independent blocks of the Jacobian (cells only, with the constraints' scatter and
+/// the row swap, no loads, no constraint diagonal), and what they were assembled for.
+struct FixedTangent {
+    values: Vec<f64>,
+    pattern: Arc<CsrPattern>,
+    laws: LawMap,
+    mode: GeometryMode,
+    /// The constrained DOFs of the constrained assembly; `None`: assembled without constraints.
+    constrained: Option<Vec<usize>>,
+    swapped: Vec<bool>,
 }
 
 impl<'m> CoupledProblem<'m> {
@@ -135,6 +155,18 @@ impl<'m> CoupledProblem<'m> {
     /// counted).
     pub fn assembly_seconds(&self) -> f64 {
         self.assembly_seconds
+    }
+
+    /// Whether the last Jacobian was assembled from the stored state-independent blocks
+    /// ([`Self::reuse_fixed_tangent`]).
+    pub fn used_fixed_tangent(&self) -> bool {
+        self.fixed_tangent_used
+    }
+
+    /// How many times the state-independent blocks were assembled so far (once per set of
+    /// constraints and laws while [`Self::reuse_fixed_tangent`] applies).
+    pub fn fixed_tangent_assemblies(&self) -> usize {
+        self.fixed_tangent_assemblies
     }
 
     /// Build the assembler (pattern, colouring) for `dofs`, which must hold the three fields.
@@ -169,6 +201,10 @@ impl<'m> CoupledProblem<'m> {
             swapped: vec![false; mesh.n_points()],
             n_swapped: 0,
             assembly_seconds: 0.0,
+            reuse_fixed_tangent: true,
+            fixed_tangent: None,
+            fixed_tangent_used: false,
+            fixed_tangent_assemblies: 0,
         }
     }
 
@@ -248,12 +284,70 @@ impl<'m> CoupledProblem<'m> {
         self.zero_increments.clear();
         self.zero_increments
             .resize(self.constraints.n_constrained(), 0.0);
+        let split = self.reuse_fixed_tangent && self.laws.constant_mechanical_tangent();
+        if !split {
+            self.fixed_tangent = None;
+        }
+        let split = split && matrix.is_some();
+        if split {
+            self.refresh_fixed_tangent(x, constrained)?;
+        }
         let mut target = AssemblyTarget {
             matrix,
             vector: residual,
             constraints: constrained.then_some((&self.constraints, &self.zero_increments[..])),
         };
-        self.assembler.begin(&mut target);
+        if target.matrix.is_some() {
+            self.fixed_tangent_used = split;
+        }
+        let part = match self.fixed_tangent.as_ref().filter(|_| split) {
+            Some(fixed) => {
+                self.assembler.begin_from(&mut target, &fixed.values);
+                TangentPart::StateDependent
+            }
+            None => {
+                self.assembler.begin(&mut target);
+                TangentPart::Whole
+            }
+        };
+        self.add_cell_terms(x, part, &mut target)?;
+        let swap = self.row_swap();
+        add_loads(
+            &LoadContext {
+                mesh: self.mesh,
+                dofs: &self.dofs,
+                assembler: &self.assembler,
+                mode: self.mode,
+                flux_field: self.fields.c,
+                displacement_field: self.fields.u,
+                solution: x,
+                swap,
+                finite: self.laws.is_finite(),
+            },
+            &self.loads,
+            &mut target,
+        );
+        self.assembler.finish(&mut target);
+        Ok(())
+    }
+
+    /// The row swap of the nodes with a prescribed potential, if any (after `refresh_swap`).
+    fn row_swap(&self) -> Option<RowSwap<'_>> {
+        (self.n_swapped > 0).then_some(RowSwap {
+            dofs: &self.dofs,
+            fields: self.fields,
+            swapped: &self.swapped,
+        })
+    }
+
+    /// Add the cells' residual and the `part` of their tangent at `x` to `target` (through the
+    /// row swap where `μ` is prescribed).
+    fn add_cell_terms(
+        &self,
+        x: &[f64],
+        part: TangentPart,
+        target: &mut AssemblyTarget<'_>,
+    ) -> Result<(), CoupledError> {
         let t = self.time;
         let timed = self.source.as_ref();
         let source = move |p: [f64; 3]| timed.map_or(0.0, |f| f(p, t));
@@ -277,13 +371,9 @@ impl<'m> CoupledProblem<'m> {
                 .as_ref()
                 .map(|_| &potential_source as _),
             solution: x,
+            tangent: part,
         };
-        let swap = (self.n_swapped > 0).then_some(RowSwap {
-            dofs: &self.dofs,
-            fields: self.fields,
-            swapped: &self.swapped,
-        });
-        match swap {
+        match self.row_swap() {
             Some(swap) => self.assembler.add_cells(
                 self.mesh,
                 &self.dofs,
@@ -291,28 +381,56 @@ impl<'m> CoupledProblem<'m> {
                     inner: kernel,
                     swap,
                 },
-                &mut target,
-            )?,
+                target,
+            ),
             None => self
                 .assembler
-                .add_cells(self.mesh, &self.dofs, &kernel, &mut target)?,
+                .add_cells(self.mesh, &self.dofs, &kernel, target),
         }
-        add_loads(
-            &LoadContext {
-                mesh: self.mesh,
-                dofs: &self.dofs,
-                assembler: &self.assembler,
-                mode: self.mode,
-                flux_field: self.fields.c,
-                displacement_field: self.fields.u,
-                solution: x,
-                swap,
-                finite: self.laws.is_finite(),
-            },
-            &self.loads,
-            &mut target,
-        );
-        self.assembler.finish(&mut target);
+    }
+
+    /// Make `fixed_tangent` hold the state-independent blocks for the current laws, geometry
+    /// mode, constraints (when `constrained`) and row swap, assembling them at `x` (any state:
+    /// they do not depend on it) when any of these changed.
+    fn refresh_fixed_tangent(&mut self, x: &[f64], constrained: bool) -> Result<(), CoupledError> {
+        let pattern = self.assembler.pattern();
+        let constrained_dofs = constrained.then(|| self.constraints.dofs());
+        let current = self.fixed_tangent.as_ref().is_some_and(|f| {
+            Arc::ptr_eq(&f.pattern, pattern)
+                && f.mode == self.mode
+                && f.constrained.as_deref() == constrained_dofs
+                && f.swapped == self.swapped
+                && f.laws == self.laws
+        });
+        if current {
+            return Ok(());
+        }
+        let mut values = self
+            .fixed_tangent
+            .take()
+            .map(|f| f.values)
+            .unwrap_or_default();
+        values.clear();
+        values.resize(pattern.nnz(), 0.0);
+        let mut fixed = CsrMatrix {
+            pattern: pattern.clone(),
+            values,
+        };
+        let mut target = AssemblyTarget {
+            matrix: Some(&mut fixed),
+            vector: None,
+            constraints: constrained.then_some((&self.constraints, &self.zero_increments[..])),
+        };
+        self.add_cell_terms(x, TangentPart::StateIndependent, &mut target)?;
+        self.fixed_tangent_assemblies += 1;
+        self.fixed_tangent = Some(FixedTangent {
+            values: fixed.values,
+            pattern: fixed.pattern,
+            laws: self.laws.clone(),
+            mode: self.mode,
+            constrained: constrained_dofs.map(<[usize]>::to_vec),
+            swapped: self.swapped.clone(),
+        });
         Ok(())
     }
 

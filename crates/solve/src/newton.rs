@@ -127,6 +127,11 @@ pub enum NewtonError<E: std::error::Error + 'static> {
         iteration: usize,
         dof: Option<usize>,
     },
+    /// `dof`: the unknown whose row holds the first entry of the Jacobian that is not finite
+    /// (an overflowing material law, say). Found before the linear solve, which would only call
+    /// the matrix singular.
+    #[error("non-finite Jacobian entry at iteration {iteration} (first in the row of dof {dof})")]
+    NonFiniteJacobian { iteration: usize, dof: usize },
     #[error("linear solve failed: {0}")]
     Linear(#[from] LinalgError),
     #[error(transparent)]
@@ -140,6 +145,33 @@ fn at_dof(dof: Option<usize>) -> String {
 /// Index of the first entry that is not finite.
 fn first_non_finite(v: &[f64]) -> Option<usize> {
     v.iter().position(|x| !x.is_finite())
+}
+
+/// [`NewtonError::NonFiniteJacobian`] for the first row of `jac` with an entry that is not
+/// finite, if any.
+fn check_jacobian<E: std::error::Error>(
+    jac: &CsrMatrix,
+    iteration: usize,
+) -> Result<(), NewtonError<E>> {
+    // A sum is not finite iff a term is not (or the terms overflow, which is as bad): one
+    // branch per block of values instead of one per value.
+    const BLOCK: usize = 1024;
+    let Some(block) = jac
+        .values
+        .chunks(BLOCK)
+        .position(|b| !b.iter().sum::<f64>().is_finite())
+    else {
+        return Ok(());
+    };
+    let Some(k) = jac.values[block * BLOCK..]
+        .iter()
+        .position(|v| !v.is_finite())
+        .map(|k| k + block * BLOCK)
+    else {
+        return Ok(());
+    };
+    let dof = jac.pattern.row_ptr.partition_point(|&start| start <= k) - 1;
+    Err(NewtonError::NonFiniteJacobian { iteration, dof })
 }
 
 fn max_norm(v: &[f64]) -> f64 {
@@ -322,6 +354,7 @@ fn newton_iterations<S: DiscreteSystem>(
             dof: first_non_finite(&res),
         });
     }
+    check_jacobian(&jac, 0)?;
     info.residual_norms.push(rn);
     let blocks = system.blocks();
     let scales = system.block_scales();
@@ -511,6 +544,7 @@ fn newton_iterations<S: DiscreteSystem>(
             system
                 .jacobian_into(x, &mut jac, &mut res)
                 .map_err(NewtonError::System)?;
+            check_jacobian(&jac, it)?;
             floors = round_off_floors(&jac, x, &blocks);
             factored_current = false;
         }
