@@ -735,8 +735,8 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
 /// is not a rise the scheme can be blamed for; common practice, no source).
 pub const ENERGY_ROUND_OFF: f64 = 1e-12;
 
-/// The symmetric-form solver or the direct LU (AMD in 2D, nested dissection in 3D), or GMRES
-/// with ILU(0); threaded only in 3D.
+/// The symmetric-form solver (nested dissection) or the direct LU (AMD in 2D, nested
+/// dissection in 3D), or GMRES with ILU(0); threaded only in 3D.
 fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver> {
     let ordering = match model.mode {
         GeometryMode::ThreeD => Ordering::NestedDissection,
@@ -745,7 +745,13 @@ fn build_linear_solver(model: &Model, par: Parallelism) -> Box<dyn LinearSolver>
     let kind = match model.scenario.solver.linear {
         // Finite strain has no symmetric form (CoupledProblem::row_transform): the LU directly.
         LinearSolverName::Symmetric if model.laws.is_finite() => SolverKind::Lu(ordering),
-        LinearSolverName::Symmetric => SolverKind::SymmetricForm(ordering),
+        // Nested dissection in 2D as well: on the charging particle (21 316 unknowns, quad8)
+        // its factor holds 3.93 M entries against AMD's 4.23 M, and GMRES, which applies the
+        // factor about nine times per Newton iteration, took 4.46–6.38 s against 5.91–7.45 s
+        // in two alternating pairs (the same 999 iterations); on the spinodal benchmark (80 802
+        // unknowns, quad4) the two were even (t = 0–150, the same 782 iterations: 24.9 and
+        // 26.0 s against 23.8 and 25.8 s). docs/performance.md.
+        LinearSolverName::Symmetric => SolverKind::SymmetricForm(Ordering::NestedDissection),
         LinearSolverName::Direct if model.mode == GeometryMode::ThreeD => {
             SolverKind::Lu(Ordering::NestedDissection)
         }
