@@ -244,6 +244,13 @@ fn nested_dissection_permutation(pattern: &CsrPattern) -> Result<Permutation, Li
     // METIS_NOPTIONS entries (set to defaults by METIS_SetDefaultOptions). METIS does not keep
     // the pointers after returning. A null `vwgt` means unit vertex weights (METIS manual,
     // METIS_NodeND, from memory).
+    // METIS seeds its random number generator at every call, but the generator's state is a
+    // process-wide static of GKlib (`mt[]` in GKlib/random.c, vendored by metis-sys): two calls
+    // at once from two threads race on it, and each may get a different ordering than when
+    // alone (seen as a run that differed in the last bits between two runs of the test suite).
+    // One call at a time makes every ordering the one of a call alone.
+    static METIS: std::sync::Mutex<()> = std::sync::Mutex::new(());
+    let _one_at_a_time = METIS.lock().unwrap_or_else(|e| e.into_inner());
     let status = unsafe {
         metis_sys::METIS_SetDefaultOptions(options.as_mut_ptr());
         options[metis_sys::moptions_et_METIS_OPTION_NUMBERING as usize] = 0;
@@ -266,4 +273,56 @@ fn nested_dissection_permutation(pattern: &CsrPattern) -> Result<Permutation, Li
     // check below guards against any misreading.
     let fwd: Vec<usize> = perm.into_iter().map(|p| p as usize).collect();
     Permutation::from_fwd(fwd)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Nested dissection from several threads at once gives each the ordering of a call
+    /// alone (METIS's random number generator is shared by the process; see
+    /// `nested_dissection_permutation`).
+    #[test]
+    fn concurrent_nested_dissections_equal_a_lone_one() {
+        // The graph of a 60 × 60 five-point grid: large enough for METIS to use its random
+        // matchings.
+        let m = 60;
+        let rows: Vec<Vec<usize>> = (0..m * m)
+            .map(|k| {
+                let (i, j) = (k / m, k % m);
+                let mut r = vec![k];
+                if i > 0 {
+                    r.push(k - m);
+                }
+                if i + 1 < m {
+                    r.push(k + m);
+                }
+                if j > 0 {
+                    r.push(k - 1);
+                }
+                if j + 1 < m {
+                    r.push(k + 1);
+                }
+                r
+            })
+            .collect();
+        let pattern = CsrPattern::from_rows(m * m, rows);
+        let alone = build_permutation(&pattern, Ordering::NestedDissection).unwrap();
+        std::thread::scope(|s| {
+            let handles: Vec<_> = (0..4)
+                .map(|_| {
+                    s.spawn(|| {
+                        (0..20)
+                            .map(|_| build_permutation(&pattern, Ordering::NestedDissection))
+                            .collect::<Vec<_>>()
+                    })
+                })
+                .collect();
+            for h in handles {
+                for p in h.join().unwrap() {
+                    assert_eq!(p.unwrap(), alone);
+                }
+            }
+        });
+    }
 }
