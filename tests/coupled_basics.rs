@@ -634,9 +634,7 @@ fn fixed_tangent_blocks_add_up_to_the_whole_jacobian() {
         ),
     ];
     // Each case with and without the assembler's entry table (its two scatters).
-    let cases = cases
-        .into_iter()
-        .flat_map(|c| [(c, true), (c, false)]);
+    let cases = cases.into_iter().flat_map(|c| [(c, true), (c, false)]);
     for ((name, mesh, mode, law, reusable), table) in cases {
         let build = |reuse: bool| {
             let u_order = if mesh.dim == 3 { 1 } else { 2 };
@@ -787,5 +785,136 @@ fn fixed_tangent_blocks_add_up_to_the_whole_jacobian() {
             "{name}"
         );
         assert_eq!(whole.fixed_tangent_assemblies(), 0);
+    }
+}
+
+/// The sparse pattern of `CoupledProblem::with_sparse_coupling` leaves out only entries the
+/// whole pattern holds as exact zeros: with a prescribed potential on the declared edge (row
+/// swap), supports and an exchange edge, every Jacobian entry of the sparse problem equals the
+/// full problem's entry to the bit and every entry left out is zero there; the residuals are
+/// equal. A potential prescribed on an edge that was not declared is refused by `check_setup`.
+/// (An identity of the implementation: no outside source.)
+#[test]
+fn sparse_coupling_leaves_out_only_zero_blocks() {
+    use dilata_solve::coupled::CoupledSetupError;
+    use dilata_solve::newton::DiscreteSystem;
+    use dilata_solve::time::TransientSystem;
+
+    let mesh = rectangle(&RectangleParams {
+        origin: [0.5e-6, 0.0],
+        lengths: [2e-6, 1e-6],
+        n_cells: [4, 3],
+        kind: CellKind::Quad8,
+    })
+    .unwrap();
+    let (dofs, fields) = common::coupled_dofs(&mesh, 2);
+    // `μ` may be prescribed on the top edge only.
+    let mut top = vec![false; mesh.n_points()];
+    for f in mesh.boundary("top").unwrap() {
+        let (kind, nodes) = mesh.cell(f.cell);
+        for &local in kind.facets()[f.local as usize].1 {
+            top[nodes[local]] = true;
+        }
+    }
+    let laws = LawMap::uniform(lattice_law(), mesh.n_cells());
+    let mode = GeometryMode::Axisymmetric;
+    let par = Parallelism::Sequential;
+    let mut sparse = CoupledProblem::with_sparse_coupling(
+        &mesh,
+        dofs.clone(),
+        fields,
+        mode,
+        laws.clone(),
+        par,
+        &top,
+    );
+    let mut full = CoupledProblem::new(&mesh, dofs, fields, mode, laws, par);
+    let (ps, pf) = (
+        sparse.assembler.pattern().clone(),
+        full.assembler.pattern().clone(),
+    );
+    assert!(ps.nnz() < pf.nnz() * 9 / 10, "{} vs {}", ps.nnz(), pf.nnz());
+    let constrain = |p: &mut CoupledProblem<'_>, mu_on: &str| {
+        let mut constraints = dilata_fem::Constraints::new(p.dofs.n_dofs());
+        for (boundary, field, component, value) in [
+            ("left", fields.u, 1, 0.0),
+            ("bottom", fields.u, 1, 0.0),
+            (mu_on, fields.mu, 0, 150.0),
+        ] {
+            constraints
+                .add_boundary(
+                    &mesh,
+                    &p.dofs,
+                    BoundaryTarget {
+                        boundary,
+                        field,
+                        component,
+                    },
+                    value,
+                )
+                .unwrap();
+        }
+        p.constraints = constraints;
+        p.loads = vec![(
+            mesh.boundary("right").unwrap().to_vec(),
+            BoundaryLoad::Exchange {
+                rate: 1e-9,
+                outside: 2.0 * C0,
+            },
+        )];
+        p.check_setup()
+    };
+    constrain(&mut sparse, "top").unwrap();
+    constrain(&mut full, "top").unwrap();
+    let mut x = uniform_state(&mesh, &sparse.dofs, fields, C0);
+    for (node, p) in mesh.points.iter().enumerate() {
+        let (s, t) = (p[0] / 2e-6, p[1] / 1e-6);
+        for comp in 0..2 {
+            x[sparse.dofs.node_dof(fields.u, node, comp).unwrap()] = 1e-9 * (s * t + comp as f64);
+        }
+        if let Ok(d) = sparse.dofs.node_dof(fields.c, node, 0) {
+            x[d] = C0 * (1.0 + 0.3 * s * s - 0.2 * t);
+        }
+        if let Ok(d) = sparse.dofs.node_dof(fields.mu, node, 0) {
+            x[d] = 1e3 * (s - t * t);
+        }
+    }
+    let history: Vec<f64> = x.iter().map(|v| -0.7 * v).collect();
+    let n = x.len();
+    let (mut js, mut jf) = (
+        sparse.assembler.build_matrix(),
+        full.assembler.build_matrix(),
+    );
+    let (mut rs, mut rf) = (vec![0.0; n], vec![0.0; n]);
+    for p in [&mut sparse, &mut full] {
+        p.begin_step(0.0, 20.0, &history);
+    }
+    sparse.assemble_into(&x, &mut js, &mut rs).unwrap();
+    full.assemble_into(&x, &mut jf, &mut rf).unwrap();
+    assert_eq!(rs, rf);
+    let mut kept = 0;
+    for i in 0..n {
+        for k in pf.row_ptr[i]..pf.row_ptr[i + 1] {
+            let j = pf.col_idx[k];
+            match ps.find(i, j) {
+                Some(ks) => {
+                    assert_eq!(
+                        js.values[ks].to_bits(),
+                        jf.values[k].to_bits(),
+                        "({i}, {j})"
+                    );
+                    kept += 1;
+                }
+                None => assert_eq!(jf.values[k], 0.0, "({i}, {j}) left out but not zero"),
+            }
+        }
+    }
+    assert_eq!(kept, ps.nnz());
+    // A potential on an edge the sparse pattern was not built for.
+    match constrain(&mut sparse, "right") {
+        Err(CoupledSetupError::PotentialNotDeclared { node }) => {
+            assert!(!top[node], "node {node} was declared")
+        }
+        other => panic!("expected PotentialNotDeclared, got {other:?}"),
     }
 }

@@ -25,7 +25,7 @@ use rayon::prelude::{
 };
 
 use crate::constraints::Constraints;
-use crate::dofs::DofMap;
+use crate::dofs::{DofMap, FieldHandle};
 
 /// One cell as a kernel sees it.
 #[derive(Clone, Copy, Debug)]
@@ -144,6 +144,9 @@ struct EntryTable {
 /// 22.3–23.6 ms on two.
 const ENTRY_TABLE_MIN_DOFS: usize = 8;
 
+/// The [`EntryTable`] offset of a local entry outside the pattern (`Assembler::build_coupled`).
+const OUTSIDE: u16 = u16::MAX;
+
 /// Checksum of the DOFs of every cell, in cell order (see [`EntryTable::fingerprint`]).
 fn dof_fingerprint(mesh: &Mesh, dofs: &DofMap) -> u64 {
     let mut h: u64 = 0xcbf2_9ce4_8422_2325;
@@ -170,7 +173,8 @@ impl EntryTable {
             .map(|i| pattern.row_ptr[i + 1] - pattern.row_ptr[i])
             .max()
             .unwrap_or(0);
-        if 2 * total > 16 * pattern.col_idx.len() || longest > u16::MAX as usize + 1 {
+        // Offsets up to `u16::MAX − 1`; `u16::MAX` marks a local entry outside the pattern.
+        if 2 * total > 16 * pattern.col_idx.len() || longest > u16::MAX as usize {
             return None;
         }
         let mut cell_start = Vec::with_capacity(n_cells + 1);
@@ -181,10 +185,8 @@ impl EntryTable {
             for &i in cd {
                 let cols = pattern.row(i);
                 for &j in cd {
-                    let k = cols
-                        .binary_search(&j)
-                        .expect("every cell coupling is in the pattern");
-                    offsets.push(k as u16);
+                    let k = cols.binary_search(&j).map_or(OUTSIDE, |k| k as u16);
+                    offsets.push(k);
                 }
             }
             cell_start.push(offsets.len());
@@ -211,8 +213,22 @@ enum AssemblyThreads {
 impl Assembler {
     /// Build the pattern (from connectivity) and the colouring.
     pub fn build(mesh: &Mesh, dofs: &DofMap, parallelism: Parallelism) -> Self {
+        Self::build_coupled(mesh, dofs, parallelism, |_, _, _| true)
+    }
+
+    /// [`Self::build`] with a pattern that leaves out the blocks a kernel never fills:
+    /// `couples(f, node, g)` says whether the rows of field `f` at (master) node `node` hold
+    /// columns of field `g` (the diagonal block, `f == g`, is always kept). A kernel's local
+    /// entries outside the pattern must be exact zeros: the scatter drops them (a debug build
+    /// checks that they are zero).
+    pub fn build_coupled(
+        mesh: &Mesh,
+        dofs: &DofMap,
+        parallelism: Parallelism,
+        couples: impl Fn(FieldHandle, usize, FieldHandle) -> bool,
+    ) -> Self {
         let adjacency = build_node_adjacency(mesh, dofs);
-        let pattern = Arc::new(build_pattern(mesh, dofs, &adjacency));
+        let pattern = Arc::new(build_pattern(dofs, &adjacency, &couples));
         let colors = build_colors(mesh, dofs, &adjacency.node_cells);
         // The same `Parallelism` value as the linear solvers: `Sequential` assembles on the
         // calling thread, `Rayon { threads }` on that many threads (0: all cores): the current
@@ -725,11 +741,19 @@ unsafe fn scatter_local(
                         continue;
                     }
                 }
-                while cols[k] < j {
+                while k < cols.len() && cols[k] < j {
                     k += 1;
                 }
-                debug_assert_eq!(cols[k], j);
-                m.add(start + k, buf.matrix[a * n + b]);
+                if cols.get(k) == Some(&j) {
+                    m.add(start + k, buf.matrix[a * n + b]);
+                } else {
+                    // Outside a coupled pattern (`Assembler::build_coupled`).
+                    debug_assert_eq!(
+                        buf.matrix[a * n + b],
+                        0.0,
+                        "local entry outside the pattern"
+                    );
+                }
             }
         }
     }
@@ -785,13 +809,19 @@ unsafe fn scatter_with_table(
         match constraints {
             None => {
                 for (&k, &v) in offs.iter().zip(row) {
-                    m.add(start + k as usize, v);
+                    if k != OUTSIDE {
+                        m.add(start + k as usize, v);
+                    } else {
+                        debug_assert_eq!(v, 0.0, "local entry outside the pattern");
+                    }
                 }
             }
             Some((cons, _)) => {
                 for ((&k, &v), &j) in offs.iter().zip(row).zip(cols) {
-                    if !cons.is_constrained(j) {
+                    if k != OUTSIDE && !cons.is_constrained(j) {
                         m.add(start + k as usize, v);
+                    } else {
+                        debug_assert!(k != OUTSIDE || v == 0.0, "local entry outside the pattern");
                     }
                 }
             }
@@ -848,11 +878,16 @@ fn build_node_adjacency(mesh: &Mesh, dofs: &DofMap) -> NodeAdjacency {
     }
 }
 
-/// Pattern: DOF (field f, node n) couples with DOF (field g, node m) iff n and m share a cell.
-fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern {
+/// Pattern: DOF (field f, node n) couples with DOF (field g, node m) iff n and m share a cell
+/// and `couples(f, n, g)` (always for `f == g`).
+fn build_pattern(
+    dofs: &DofMap,
+    adj: &NodeAdjacency,
+    couples: &impl Fn(FieldHandle, usize, FieldHandle) -> bool,
+) -> CsrPattern {
     let n = dofs.n_dofs();
     let (nptr, nadj) = &adj.node_nodes;
-    let handles: Vec<_> = (0..dofs.n_fields()).map(crate::dofs::FieldHandle).collect();
+    let handles: Vec<_> = (0..dofs.n_fields()).map(FieldHandle).collect();
     let mut row_ptr = Vec::with_capacity(n + 1);
     row_ptr.push(0);
     let mut col_idx = Vec::new();
@@ -866,7 +901,7 @@ fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern 
             row.clear();
             for &g in &handles {
                 let ncg = dofs.spec(g).n_components;
-                if ncg == 0 {
+                if ncg == 0 || (g != f && !couples(f, node, g)) {
                     continue;
                 }
                 for &m in &nadj[nptr[node]..nptr[node + 1]] {
@@ -882,7 +917,6 @@ fn build_pattern(mesh: &Mesh, dofs: &DofMap, adj: &NodeAdjacency) -> CsrPattern 
             }
         }
     }
-    let _ = mesh;
     CsrPattern {
         n_rows: n,
         n_cols: n,

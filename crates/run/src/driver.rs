@@ -256,7 +256,16 @@ pub fn run_with(
 
     let par = parallelism(options.threads);
     let mesh = &model.mesh;
-    let mut problem = CoupledProblem::new(mesh, dofs, fields, model.mode, model.laws.clone(), par);
+    let potential_nodes = potential_nodes(model, &dofs, fields);
+    let mut problem = CoupledProblem::with_sparse_coupling(
+        mesh,
+        dofs,
+        fields,
+        model.mode,
+        model.laws.clone(),
+        par,
+        &potential_nodes,
+    );
     // With the LU, factorising the coupled Jacobian costs far more than a residual, so Newton
     // keeps a factorisation while it converges fast (chord steps). The symmetric-form solver
     // keeps its own factorisation across Newton iterations and solves with the current
@@ -728,6 +737,20 @@ fn build_integrator_params(model: &Model) -> IntegratorParams {
             },
         ),
     }
+}
+
+/// The mesh nodes where some stage prescribes `μ`: the sparse pattern of the coupled problem
+/// keeps `u` columns in their `c` rows (`CoupledProblem::with_sparse_coupling`).
+fn potential_nodes(model: &Model, dofs: &DofMap, fields: CoupledFields) -> Vec<bool> {
+    let mut flags = vec![false; model.mesh.n_points()];
+    for plan in &model.stages {
+        let setup = build_stage_setup(plan, &model.mesh, dofs, fields, 0.0, &[]);
+        for node in dofs.field_nodes(fields.mu) {
+            let d = dofs.node_dof(fields.mu, node, 0).expect("node carries mu");
+            flags[node] |= setup.constraints.is_constrained(d);
+        }
+    }
+    flags
 }
 
 /// Relative rise of the total free energy tolerated by `reject_energy_rise`: the round-off of
