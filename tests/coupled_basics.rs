@@ -652,26 +652,16 @@ fn fixed_tangent_blocks_add_up_to_the_whole_jacobian() {
             if reuse && !table {
                 p.assembler.drop_entry_table();
             }
-            let fixed = [
-                ("left", fields.u, 0, 0.0),
-                ("bottom", fields.u, 1, 0.0),
-                ("top", fields.mu, 0, 150.0),
-                ("right", fields.c, 0, 1.1 * C0),
-            ];
-            for (boundary, field, component, value) in fixed {
-                p.constraints
-                    .add_boundary(
-                        mesh,
-                        &p.dofs,
-                        BoundaryTarget {
-                            boundary,
-                            field,
-                            component,
-                        },
-                        value,
-                    )
-                    .unwrap();
-            }
+            p.constraints = held(
+                mesh,
+                &p.dofs,
+                &[
+                    ("left", fields.u, 0, 0.0),
+                    ("bottom", fields.u, 1, 0.0),
+                    ("top", fields.mu, 0, 150.0),
+                    ("right", fields.c, 0, 1.1 * C0),
+                ],
+            );
             p.loads.push((
                 mesh.boundary("right").unwrap().to_vec(),
                 BoundaryLoad::Exchange {
@@ -747,26 +737,15 @@ fn fixed_tangent_blocks_add_up_to_the_whole_jacobian() {
         // A new stage: the potential is no longer prescribed (no row swap), the
         // concentration is.
         for p in [&mut reused, &mut whole] {
-            let mut constraints = dilata_fem::Constraints::new(n);
-            for (boundary, field, component) in [
-                ("left", fields.u, 0),
-                ("bottom", fields.u, 1),
-                ("top", fields.c, 0),
-            ] {
-                constraints
-                    .add_boundary(
-                        mesh,
-                        &p.dofs,
-                        BoundaryTarget {
-                            boundary,
-                            field,
-                            component,
-                        },
-                        C0,
-                    )
-                    .unwrap();
-            }
-            p.constraints = constraints;
+            p.constraints = held(
+                mesh,
+                &p.dofs,
+                &[
+                    ("left", fields.u, 0, 0.0),
+                    ("bottom", fields.u, 1, 0.0),
+                    ("top", fields.c, 0, C0),
+                ],
+            );
         }
         for k in 3..5 {
             compare(
@@ -835,26 +814,15 @@ fn sparse_coupling_leaves_out_only_zero_blocks() {
     );
     assert!(ps.nnz() < pf.nnz() * 9 / 10, "{} vs {}", ps.nnz(), pf.nnz());
     let constrain = |p: &mut CoupledProblem<'_>, mu_on: &str| {
-        let mut constraints = dilata_fem::Constraints::new(p.dofs.n_dofs());
-        for (boundary, field, component, value) in [
-            ("left", fields.u, 1, 0.0),
-            ("bottom", fields.u, 1, 0.0),
-            (mu_on, fields.mu, 0, 150.0),
-        ] {
-            constraints
-                .add_boundary(
-                    &mesh,
-                    &p.dofs,
-                    BoundaryTarget {
-                        boundary,
-                        field,
-                        component,
-                    },
-                    value,
-                )
-                .unwrap();
-        }
-        p.constraints = constraints;
+        p.constraints = held(
+            &mesh,
+            &p.dofs,
+            &[
+                ("left", fields.u, 1, 0.0),
+                ("bottom", fields.u, 1, 0.0),
+                (mu_on, fields.mu, 0, 150.0),
+            ],
+        );
         p.loads = vec![(
             mesh.boundary("right").unwrap().to_vec(),
             BoundaryLoad::Exchange {
@@ -917,4 +885,28 @@ fn sparse_coupling_leaves_out_only_zero_blocks() {
         }
         other => panic!("expected PotentialNotDeclared, got {other:?}"),
     }
+}
+
+/// Constraints holding `value` on `component` of `field` along each named boundary.
+fn held(
+    mesh: &Mesh,
+    dofs: &DofMap,
+    values: &[(&str, dilata_fem::FieldHandle, usize, f64)],
+) -> dilata_fem::Constraints {
+    let mut constraints = dilata_fem::Constraints::new(dofs.n_dofs());
+    for &(boundary, field, component, value) in values {
+        constraints
+            .add_boundary(
+                mesh,
+                dofs,
+                BoundaryTarget {
+                    boundary,
+                    field,
+                    component,
+                },
+                value,
+            )
+            .unwrap();
+    }
+    constraints
 }
