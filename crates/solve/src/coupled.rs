@@ -374,11 +374,11 @@ impl<'m> CoupledProblem<'m> {
         self.zero_increments.clear();
         self.zero_increments
             .resize(self.constraints.n_constrained(), 0.0);
-        let split = self.reuse_fixed_tangent && self.laws.constant_mechanical_tangent();
-        if !split {
+        let reusable = self.reuse_fixed_tangent && self.laws.constant_mechanical_tangent();
+        if !reusable {
             self.fixed_tangent = None;
         }
-        let split = split && matrix.is_some();
+        let split = reusable && matrix.is_some();
         if split {
             self.refresh_fixed_tangent(x, constrained)?;
         }
@@ -390,15 +390,13 @@ impl<'m> CoupledProblem<'m> {
         if target.matrix.is_some() {
             self.fixed_tangent_used = split;
         }
-        let part = match self.fixed_tangent.as_ref().filter(|_| split) {
-            Some(fixed) => {
-                self.assembler.begin_from(&mut target, &fixed.values);
-                TangentPart::StateDependent
-            }
-            None => {
-                self.assembler.begin(&mut target);
-                TangentPart::Whole
-            }
+        let part = if split {
+            let fixed = self.fixed_tangent.as_ref().expect("refreshed above");
+            self.assembler.begin_from(&mut target, &fixed.values);
+            TangentPart::StateDependent
+        } else {
+            self.assembler.begin(&mut target);
+            TangentPart::Whole
         };
         self.add_cell_terms(x, part, &mut target)?;
         let swap = self.row_swap();

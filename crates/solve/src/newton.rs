@@ -153,8 +153,9 @@ fn check_jacobian<E: std::error::Error>(
     jac: &CsrMatrix,
     iteration: usize,
 ) -> Result<(), NewtonError<E>> {
-    // A sum is not finite iff a term is not (or the terms overflow, which is as bad): one
-    // branch per block of values instead of one per value.
+    // A block with a term that is not finite has a sum that is not finite: one branch per
+    // block of values instead of one per value. (If finite terms only overflow in the sum, the
+    // search below runs on from that block to the end of the values.)
     const BLOCK: usize = 1024;
     let Some(block) = jac
         .values
